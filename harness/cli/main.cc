@@ -1,0 +1,2 @@
+// placeholder replaced by the CLI wiring
+int main() { return 0; }
