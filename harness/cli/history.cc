@@ -1,0 +1,103 @@
+// unseen history: the entries in order. unseen status: where things stand.
+#include <fmt/core.h>
+
+#include <nlohmann/json.hpp>
+
+#include "harness/cli/commands.h"
+#include "harness/workflow/ledger_state.h"
+
+namespace unseen::cli {
+
+namespace {
+
+using json = nlohmann::json;
+
+// One line saying what an entry did.
+std::string Summary(const Entry& e, const json& b) {
+  if (e.kind == "ledger") return "ledger " + b.value("ledger_id", std::string());
+  if (e.kind == "source") {
+    return fmt::format("{} ({} rows, {} columns, {})", b["file"].value("path", std::string()),
+                       b.value("rows", 0), b["columns"].size(), b.value("task", std::string()));
+  }
+  if (e.kind == "seal") {
+    return fmt::format("{} split, seed {}: holdout {} rows, dev {} rows",
+                       b.value("strategy", std::string()), b.value("seed", 0),
+                       b["holdout"].value("rows", 0), b["dev"].value("rows", 0));
+  }
+  if (b.contains("summary") && b["summary"].is_string()) return b["summary"].get<std::string>();
+  return "";
+}
+
+}  // namespace
+
+Runner SetupHistory(CLI::App& app) {
+  auto opt = std::make_shared<CommonOptions>();
+  CLI::App* cmd = app.add_subcommand("history", "List the ledger's entries in order");
+  AddCommonOptions(cmd, opt.get());
+  return [opt, cmd]() -> Status {
+    if (!cmd->parsed()) return Status::OK();
+    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> entries, ledger->Entries());
+    if (opt->json) {
+      json out = json::array();
+      for (const Entry& e : entries) {
+        out.push_back({{"seq", e.seq}, {"kind", e.kind}, {"hash", ToHex(e.hash)},
+                       {"prev_hash", ToHex(e.prev_hash)}, {"body", json::parse(e.body)}});
+      }
+      fmt::print("{}\n", out.dump());
+      return Status::OK();
+    }
+    fmt::print("{:>4}  {:<20}  {:<8}  {:<12}  {:<16}  {}\n", "seq", "time (UTC)", "kind", "actor",
+               "hash", "what");
+    for (const Entry& e : entries) {
+      json b = json::parse(e.body);
+      fmt::print("{:>4}  {:<20}  {:<8}  {:<12}  {:<16}  {}\n", e.seq, b.value("time", std::string()),
+                 e.kind, b.value("actor", std::string()), ToHex(e.hash).substr(0, 16), Summary(e, b));
+    }
+    return Status::OK();
+  };
+}
+
+Runner SetupStatus(CLI::App& app) {
+  auto opt = std::make_shared<CommonOptions>();
+  CLI::App* cmd = app.add_subcommand("status", "Show the source, the partitions and the holdout budget");
+  AddCommonOptions(cmd, opt.get());
+  return [opt, cmd]() -> Status {
+    if (!cmd->parsed()) return Status::OK();
+    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
+    UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
+    const SourceInfo& s = st.source;
+    if (opt->json) {
+      json j = {{"ledger", opt->ledger}, {"ledger_id", st.ledger_id}, {"entries", st.entries},
+                {"head", ToHex(st.head)},
+                {"source", {{"path", s.path}, {"sha256", ToHex(s.file_sha256)}, {"rows", s.rows},
+                            {"columns", s.columns.size()}, {"task", TaskKindName(s.task)}}},
+                {"sealed", st.seal.has_value()}, {"holdout_queries", st.holdout_queries}};
+      if (st.seal) {
+        j["holdout_rows"] = st.seal->holdout_rows;
+        j["dev_rows"] = st.seal->dev_rows;
+        j["strategy"] = st.seal->strategy;
+        j["budget_queries"] = st.seal->budget_queries;
+        j["budget_remaining"] = st.seal->budget_queries > st.holdout_queries
+                                    ? st.seal->budget_queries - st.holdout_queries : 0;
+      }
+      fmt::print("{}\n", j.dump());
+      return Status::OK();
+    }
+    fmt::print("ledger   {} ({} entries, head {})\n", opt->ledger, st.entries, ToHex(st.head));
+    fmt::print("source   {}: {} rows, {} columns, {} task, sha256 {}\n", s.path, s.rows,
+               s.columns.size(), TaskKindName(s.task), ToHex(s.file_sha256));
+    if (!st.seal) {
+      fmt::print("holdout  not sealed yet (run `unseen seal`)\n");
+      return Status::OK();
+    }
+    const SealInfo& seal = *st.seal;
+    fmt::print("holdout  sealed: {} rows ({} split, seed {}); dev {} rows\n", seal.holdout_rows,
+               seal.strategy, seal.seed, seal.dev_rows);
+    uint64_t left = seal.budget_queries > st.holdout_queries ? seal.budget_queries - st.holdout_queries : 0;
+    fmt::print("queries  {} of {} used, {} remaining\n", st.holdout_queries, seal.budget_queries, left);
+    return Status::OK();
+  };
+}
+
+}  // namespace unseen::cli
