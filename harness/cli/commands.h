@@ -17,6 +17,9 @@ Runner SetupVerify(CLI::App& app);
 Runner SetupHead(CLI::App& app);
 Runner SetupHistory(CLI::App& app);
 Runner SetupStatus(CLI::App& app);
+Runner SetupFit(CLI::App& app);
+Runner SetupModels(CLI::App& app);
+Runner SetupPredict(CLI::App& app);
 
 }  // namespace unseen::cli
 

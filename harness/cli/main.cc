@@ -16,7 +16,8 @@ int main(int argc, char** argv) {
   app.require_subcommand(1);
   std::vector<Runner> runners = {SetupKeygen(app), SetupInit(app),    SetupSeal(app),
                                  SetupVerify(app), SetupHead(app),    SetupHistory(app),
-                                 SetupStatus(app)};
+                                 SetupStatus(app), SetupFit(app),     SetupModels(app),
+                                 SetupPredict(app)};
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

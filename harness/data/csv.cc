@@ -6,7 +6,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#if defined(__SSE2__)
+#if defined(__SSE2__) && !defined(UNSEEN_CSV_PORTABLE_SCAN)
 #include <emmintrin.h>
 #endif
 
@@ -99,20 +99,23 @@ size_t FieldOffsetIn(std::string_view raw, char delimiter, size_t column) {
   return i;
 }
 
-// Returns the pages of [*released, upto) of `base` to the kernel (page-aligned below `upto`) and
-// advances *released. The mapping stays valid: a later access reads the page in again.
+// Returns the whole pages of [*released, upto) of the mapping at `base` to the kernel and sets
+// *released to the last page boundary at or below `upto`. The mapping stays valid: a later
+// access reads the page in again, so a page shared with unread bytes may go too.
 void ReleaseBehind(const char* base, uint64_t upto, uint64_t* released) {
   static const uint64_t page = static_cast<uint64_t>(sysconf(_SC_PAGESIZE));
+  const uint64_t begin = *released / page * page;
   const uint64_t end = upto / page * page;
-  if (end <= *released) return;
-  madvise(const_cast<char*>(base) + *released, end - *released, MADV_DONTNEED);
+  if (end <= begin) return;
+  madvise(const_cast<char*>(base) + begin, end - begin, MADV_DONTNEED);
   *released = end;
 }
 
 // Bit i of the result is set when block[i] is the delimiter, '"', CR, LF or a non-ASCII byte:
 // the only bytes the parser has to look at. Everything else is plain field content.
+// (UNSEEN_CSV_PORTABLE_SCAN forces the portable loop, to test it on x86.)
 inline uint64_t SpecialMask64(const char* block, char delimiter) {
-#if defined(__SSE2__)
+#if defined(__SSE2__) && !defined(UNSEEN_CSV_PORTABLE_SCAN)
   const __m128i d = _mm_set1_epi8(delimiter);
   const __m128i quote = _mm_set1_epi8('"');
   const __m128i lf = _mm_set1_epi8('\n');
@@ -322,8 +325,9 @@ bool RecordParser::NextRecord() {
         const char c = *q;
         if (c == delimiter || c == '\n' || c == '\r') break;
         if (c == '"') {
-          return Fail(q, "quote inside an unquoted field; expected the whole field in quotes, "
-                         "with inner quotes doubled");
+          return Fail(q,
+                      "quote inside an unquoted field; expected the whole field in quotes, "
+                      "with inner quotes doubled");
         }
         const size_t n = Utf8At(q);
         if (n == 0) return FailUtf8(q);
@@ -350,8 +354,9 @@ bool RecordParser::NextRecord() {
     content_end_ = q;
     if (*q == '\r') {
       if (q + 1 == end_ || q[1] != '\n') {
-        return Fail(q, "carriage return without a line feed; expected CRLF or LF line ends "
-                       "(a CR inside a field must be quoted)");
+        return Fail(q,
+                    "carriage return without a line feed; expected CRLF or LF line ends "
+                    "(a CR inside a field must be quoted)");
       }
       ++q;
       SkipTo(&s, q + 1);
@@ -444,8 +449,7 @@ Status CheckDelimiter(char d) {
 
 }  // namespace
 
-Result<std::unique_ptr<CsvFile>> CsvFile::Open(const std::string& path,
-                                               const CsvOptions& options) {
+Result<std::unique_ptr<CsvFile>> CsvFile::Open(const std::string& path, const CsvOptions& options) {
   try {
     UNSEEN_RETURN_IF_ERROR(CheckDelimiter(options.delimiter));
     std::unique_ptr<CsvFile> f(new CsvFile());
@@ -527,11 +531,10 @@ Status CsvFile::ReadHeader() {
     auto [it, inserted] = seen.emplace(names[i], i);
     if (!inserted) {
       const uint64_t first = bom_ + FieldOffsetIn(parser.raw(), d, it->second);
-      return Status::InvalidArgument(Location(at) + ": duplicate header name \"" +
-                                     std::string(names[i]) + "\" in column " +
-                                     std::to_string(i + 1) + "; the first is column " +
-                                     std::to_string(it->second + 1) + " at " + Location(first) +
-                                     "; expected unique names");
+      return Status::InvalidArgument(
+          Location(at) + ": duplicate header name \"" + std::string(names[i]) + "\" in column " +
+          std::to_string(i + 1) + "; the first is column " + std::to_string(it->second + 1) +
+          " at " + Location(first) + "; expected unique names");
     }
   }
   header_.assign(names.begin(), names.end());
@@ -563,11 +566,11 @@ Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn)
       status = parser.Next();
       if (!status.ok()) break;
       if (parser.field_count() != columns) {
-        const uint64_t at = parser.field_count() > columns ? parser.extra_field_offset()
-                                                           : parser.content_end();
-        status = Status::InvalidArgument(
-            Location(at) + ": ragged row: expected " + std::to_string(columns) +
-            " fields, found " + std::to_string(parser.field_count()));
+        const uint64_t at =
+            parser.field_count() > columns ? parser.extra_field_offset() : parser.content_end();
+        status = Status::InvalidArgument(Location(at) + ": ragged row: expected " +
+                                         std::to_string(columns) + " fields, found " +
+                                         std::to_string(parser.field_count()));
         break;
       }
       record.index = index++;
@@ -584,6 +587,9 @@ Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn)
   } catch (const std::exception& e) {
     Release(size_, &released);
     return Status::Internal(path_ + ": while reading records: " + e.what());
+  } catch (...) {
+    Release(size_, &released);
+    return Status::Internal(path_ + ": while reading records: an unknown exception");
   }
 }
 
@@ -601,6 +607,8 @@ Status CsvFile::ForEachChunk(size_t chunk_bytes,
     }
   } catch (const std::exception& e) {
     status = Status::Internal(path_ + ": while reading chunks: " + e.what());
+  } catch (...) {
+    status = Status::Internal(path_ + ": while reading chunks: an unknown exception");
   }
   Release(size_, &released);
   return status;
@@ -683,7 +691,10 @@ long LeadingDigitExponent(std::string_view s) {
 
 bool ParseNumber(std::string_view cell, double* out) {
   std::string_view s = cell;
-  if (!s.empty() && s[0] == '+') s.remove_prefix(1);
+  if (!s.empty() && s[0] == '+') {
+    s.remove_prefix(1);
+    if (!s.empty() && s[0] == '-') return false;  // "+-1"
+  }
   const size_t first = !s.empty() && s[0] == '-' ? 1 : 0;
   // from_chars also takes "inf", "nan" and "infinity"; a number starts with a digit or a point.
   if (first >= s.size() || !((s[first] >= '0' && s[first] <= '9') || s[first] == '.')) {
@@ -694,7 +705,7 @@ bool ParseNumber(std::string_view cell, double* out) {
   if (r.ptr != s.data() + s.size()) return false;
   if (r.ec == std::errc::result_out_of_range) {
     if (LeadingDigitExponent(s.substr(first)) >= 0) return false;  // overflow
-    value = first == 1 ? -0.0 : 0.0;                                // underflow
+    value = first == 1 ? -0.0 : 0.0;                               // underflow
   } else if (r.ec != std::errc()) {
     return false;
   }

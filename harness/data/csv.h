@@ -126,12 +126,12 @@ class CsvFile {
   CsvOptions options_;
   const char* data_ = nullptr;  // size_ bytes: the mapping or owned_; nullptr when empty
   uint64_t size_ = 0;
-  bool mapped_ = false;        // data_ is a mapping of the file (else owned_ or nothing)
-  std::string owned_;          // the bytes given to FromBytes()
-  uint64_t bom_ = 0;           // 3 when the file starts with a UTF-8 byte order mark, else 0
-  uint64_t header_end_ = 0;    // offset just past the header's content (before its terminator)
-  uint64_t body_begin_ = 0;    // offset of the first data record
-  uint64_t body_line_ = 1;     // line on which the first data record starts
+  bool mapped_ = false;      // data_ is a mapping of the file (else owned_ or nothing)
+  std::string owned_;        // the bytes given to FromBytes()
+  uint64_t bom_ = 0;         // 3 when the file starts with a UTF-8 byte order mark, else 0
+  uint64_t header_end_ = 0;  // offset just past the header's content (before its terminator)
+  uint64_t body_begin_ = 0;  // offset of the first data record
+  uint64_t body_line_ = 1;   // line on which the first data record starts
   std::vector<std::string> header_;
 
   // Location() cache: the line number and line start of a known offset.

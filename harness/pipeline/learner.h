@@ -43,6 +43,22 @@ class Learner {
 
 // Creates an unfitted learner from scalar parameters (grids already
 // expanded). InvalidArgument naming the kind and parameter, as MakeTransform.
+//
+// Kinds and parameters (defaults in brackets; the methods are described at
+// the top of harness/pipeline/learners/KIND.cc; ridge is in linear.cc):
+//   linear    regression; intercept [true]
+//   ridge     regression; l2 [1.0] (>= 0, intercept unpenalised)
+//   logistic  classification; l2 [1.0], tol [1e-8] (gradient infinity-norm
+//             relative to the gradient at zero), max_iter [1000] (>= 1)
+//   pocket    binary classification, no probabilities; epochs [100], seed [0]
+//   knn       both; k [5] (>= 1, <= training rows), weights ["uniform"] or "distance"
+//   stump     both; no parameters; takes sample weights
+//   bagging   both; base [{"kind": "stump"}], estimators [10], seed [0]
+//   adaboost  classification (SAMME); base [{"kind": "stump"}], estimators [50], seed [0]
+// FittedParams() is {"kind", "params" (defaults filled in), "fitted", and
+// when fitted "task", "classes", "features" and the kind's fitted values,
+// coefficients keyed by feature name}. LoadFitted() on a learner of the
+// same kind (any parameters) restores it, parameters included.
 Result<std::unique_ptr<Learner>> MakeLearner(const std::string& kind, const nlohmann::json& params);
 
 const std::vector<std::string>& LearnerKinds();

@@ -36,6 +36,7 @@ Result<SealInfo> SealFromJson(const Entry& e) {
       s.key.scrypt.p = k.at("scrypt").at("p").get<uint32_t>();
     }
     s.budget_queries = j.at("budget").at("queries").get<uint64_t>();
+    s.dev_out_path = j.at("dev").at("file").at("path").get<std::string>();
   } catch (const std::exception& ex) {
     return Status::Corruption("entry " + std::to_string(e.seq) + " (seal) is malformed: " + ex.what());
   }

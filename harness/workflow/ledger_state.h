@@ -30,6 +30,7 @@ struct SealInfo {
   Digest256 holdout_set{}, dev_set{}, sealed_rows{}, holdout_feature_digests{};
   KeyInfo key;
   uint64_t budget_queries = 0;
+  std::string dev_out_path;  // where seal wrote the development rows
 };
 
 struct LedgerState {

@@ -1,0 +1,79 @@
+// unseen models: list frozen models, or show one whole.
+// unseen predict: apply a frozen model to rows and write its predictions.
+#include <fmt/core.h>
+
+#include <nlohmann/json.hpp>
+
+#include "harness/cli/commands.h"
+#include "harness/workflow/models.h"
+
+namespace unseen::cli {
+
+namespace {
+struct ModelsOptions {
+  CommonOptions common;
+  std::string show;
+};
+struct PredictOptions {
+  CommonOptions common;
+  std::string model, data, out;
+};
+}  // namespace
+
+Runner SetupModels(CLI::App& app) {
+  auto opt = std::make_shared<ModelsOptions>();
+  CLI::App* cmd = app.add_subcommand("models", "List frozen models, or --show one with every fitted parameter");
+  cmd->add_option("--show", opt->show, "Print this model whole");
+  AddCommonOptions(cmd, &opt->common);
+  return [opt, cmd]() -> Status {
+    if (!cmd->parsed()) return Status::OK();
+    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->common.ledger, LedgerMode::kReadOnly));
+    if (!opt->show.empty()) {
+      UNSEEN_ASSIGN_OR_RETURN(nlohmann::json model, LoadModel(*ledger, opt->show, nullptr));
+      fmt::print("{}\n", opt->common.json ? model.dump() : model.dump(2));
+      return Status::OK();
+    }
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListModels(*ledger));
+    if (opt->common.json) {
+      nlohmann::json out = nlohmann::json::array();
+      for (const ModelSummary& m : models) {
+        out.push_back({{"name", m.name}, {"digest", ToHex(m.digest)}, {"fit_entry", m.fit_entry},
+                       {"learner", m.learner}, {"rows_read", m.rows}, {"candidates_compared", m.candidates},
+                       {"steps", m.parents.size() + 1}, {"tainted", m.tainted}});
+      }
+      fmt::print("{}\n", out.dump());
+      return Status::OK();
+    }
+    fmt::print("{:<20} {:<16} {:<10} {:>9} {:>10} {:<8}\n", "model", "digest", "learner", "rows read",
+               "candidates", "taint");
+    for (const ModelSummary& m : models) {
+      fmt::print("{:<20} {:<16} {:<10} {:>9} {:>10} {:<8}\n", m.name, ToHex(m.digest).substr(0, 16),
+                 m.learner, m.rows, m.candidates, m.tainted ? "TAINTED" : "clean");
+    }
+    return Status::OK();
+  };
+}
+
+Runner SetupPredict(CLI::App& app) {
+  auto opt = std::make_shared<PredictOptions>();
+  CLI::App* cmd = app.add_subcommand("predict", "Apply a frozen model to rows (never holdout rows)");
+  cmd->add_option("--model", opt->model, "Frozen model name")->required();
+  cmd->add_option("--data", opt->data, "CSV rows to predict (with or without the target)")->required();
+  cmd->add_option("--out", opt->out, "Where to write id,prediction[,p_CLASS...]")->required();
+  AddCommonOptions(cmd, &opt->common);
+  return [opt, cmd]() -> Status {
+    if (!cmd->parsed()) return Status::OK();
+    PredictRequest req{opt->common.ledger, opt->model, opt->data, opt->out, ActorName(opt->common)};
+    UNSEEN_ASSIGN_OR_RETURN(PredictReport r, PredictWithModel(req));
+    if (opt->common.json) {
+      fmt::print("{}\n", nlohmann::json{{"model", opt->model}, {"rows", r.rows}, {"out", opt->out},
+                                        {"sha256", ToHex(r.out_sha256)}, {"head", ToHex(r.head)}}.dump());
+    } else {
+      fmt::print("Wrote {} predictions of {} to {} (sha256 {})\n", r.rows, opt->model, opt->out,
+                 ToHex(r.out_sha256));
+    }
+    return Status::OK();
+  };
+}
+
+}  // namespace unseen::cli

@@ -1,0 +1,118 @@
+#include "harness/workflow/models.h"
+
+#include <cstdio>
+#include <fmt/core.h>
+
+#include "harness/pipeline/pipeline.h"
+#include "harness/workflow/dataset.h"
+#include "harness/workflow/ledger_state.h"
+
+namespace unseen {
+
+using json = nlohmann::json;
+
+Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger) {
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> fits, ledger.EntriesOfKind("fit"));
+  std::vector<ModelSummary> out;
+  for (const Entry& e : fits) {
+    try {
+      json b = json::parse(e.body);
+      ModelSummary m;
+      m.name = b.at("model").get<std::string>();
+      UNSEEN_ASSIGN_OR_RETURN(m.digest, Digest256FromHex(b.at("model_digest").get<std::string>()));
+      m.fit_entry = e.seq;
+      m.learner = b.value("learner", std::string());
+      m.rows = b.value("rows", uint64_t{0});
+      m.candidates = b.value("candidates_compared", uint64_t{1});
+      m.parents = b.value("parents", std::vector<int64_t>{});
+      m.tainted = b.value("tainted", false);
+      out.push_back(std::move(m));
+    } catch (const std::exception& ex) {
+      return Status::Corruption("entry " + std::to_string(e.seq) + " (fit) is malformed: " + ex.what());
+    }
+  }
+  return out;
+}
+
+Result<json> LoadModel(const Ledger& ledger, const std::string& name, ModelSummary* summary) {
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListModels(ledger));
+  std::string known;
+  for (const ModelSummary& m : models) {
+    if (m.name == name) {
+      UNSEEN_ASSIGN_OR_RETURN(std::string text, ledger.GetBlob(m.digest));
+      if (summary) *summary = m;
+      return json::parse(text);
+    }
+    known += (known.empty() ? "" : ", ") + m.name;
+  }
+  return Status::NotFound("--model: no frozen model named '" + name + "' (models: " +
+                          (known.empty() ? std::string("none yet") : known) + ")");
+}
+
+namespace {
+
+// Writes predictions as CSV; returns the file's SHA-256.
+Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d, const Predictions& p,
+                                   const json& model) {
+  std::vector<std::string> classes = model.at("target").at("classes").get<std::vector<std::string>>();
+  bool classification = model.at("pipeline").at("task") == "classification";
+  std::string text = "id,prediction";
+  if (classification && p.proba.size() > 0) {
+    for (const std::string& c : classes) text += ",p_" + c;
+  }
+  text += "\n";
+  for (size_t i = 0; i < d.ids.size(); ++i) {
+    auto r = static_cast<Eigen::Index>(i);
+    text += d.ids[i] + ",";
+    text += classification ? classes[static_cast<size_t>(p.value(r))] : fmt::format("{}", p.value(r));
+    if (classification && p.proba.size() > 0) {
+      for (Eigen::Index c = 0; c < p.proba.cols(); ++c) text += fmt::format(",{}", p.proba(r, c));
+    }
+    text += "\n";
+  }
+  std::string tmp = path + ".partial";
+  FILE* f = std::fopen(tmp.c_str(), "wb");
+  if (!f) return Status::InvalidArgument("--out: cannot write " + path);
+  bool ok = std::fwrite(text.data(), 1, text.size(), f) == text.size();
+  ok = std::fclose(f) == 0 && ok;
+  if (!ok || std::rename(tmp.c_str(), path.c_str()) != 0) return Status::IOError("--out: cannot write " + path);
+  return Sha256Of(text);
+}
+
+}  // namespace
+
+Result<PredictReport> PredictWithModel(const PredictRequest& req) {
+  UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
+  UNSEEN_RETURN_IF_ERROR(ledger->Begin());
+  UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
+  ModelSummary summary;
+  UNSEEN_ASSIGN_OR_RETURN(json model, LoadModel(*ledger, req.model, &summary));
+  DataRefusal refusal;
+  auto loaded = LoadData(*ledger, st, req.data_path, DataPurpose::kNewRows, &refusal);
+  if (!loaded.ok()) {
+    if (!loaded.status().IsRefused()) return loaded.status();
+    ledger->Rollback();
+    json details = {{"data", req.data_path}, {"holdout_rows", refusal.holdout_rows},
+                    {"first_lines", refusal.first_lines}, {"model", req.model}};
+    UNSEEN_RETURN_IF_ERROR(RecordRefusal(req.ledger_path, req.actor, "predict", loaded.status(), details.dump()));
+    return loaded.status();
+  }
+  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline pipeline, FittedPipeline::FromJson(model.at("pipeline")));
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, pipeline.Predict(loaded->features));
+  PredictReport report;
+  report.rows = loaded->ids.size();
+  UNSEEN_ASSIGN_OR_RETURN(report.out_sha256, WritePredictions(req.out_path, *loaded, p, model));
+  json fields = {{"model", req.model},
+                 {"model_digest", ToHex(summary.digest)},
+                 {"data", {{"path", req.data_path}, {"sha256", ToHex(loaded->file_sha256)}}},
+                 {"rows", report.rows},
+                 {"output", {{"path", req.out_path}, {"sha256", ToHex(report.out_sha256)}}},
+                 {"parents", {summary.fit_entry}},
+                 {"summary", "applied " + req.model + " to " + std::to_string(report.rows) + " rows"}};
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("apply", req.actor, fields.dump()));
+  UNSEEN_RETURN_IF_ERROR(ledger->Commit());
+  report.head = e.hash;
+  return report;
+}
+
+}  // namespace unseen

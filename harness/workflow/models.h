@@ -1,0 +1,47 @@
+// Frozen models: listing them from the ledger, loading one, and applying it
+// to data (the `models` and `predict` commands). Thread-compatible.
+#ifndef UNSEEN_HARNESS_WORKFLOW_MODELS_H_
+#define UNSEEN_HARNESS_WORKFLOW_MODELS_H_
+
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "storage/digest.h"
+#include "storage/ledger.h"
+#include "storage/status.h"
+
+namespace unseen {
+
+struct ModelSummary {
+  std::string name;
+  Digest256 digest{};
+  int64_t fit_entry = 0;
+  std::string learner;
+  uint64_t rows = 0;
+  uint64_t candidates = 0;
+  std::vector<int64_t> parents;
+  bool tainted = false;
+};
+
+Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger);
+// The frozen model's canonical JSON, checked against its digest. NotFound
+// naming the known models if there is none of that name.
+Result<nlohmann::json> LoadModel(const Ledger& ledger, const std::string& name, ModelSummary* summary);
+
+struct PredictRequest {
+  std::string ledger_path, model, data_path, out_path, actor;
+};
+struct PredictReport {
+  uint64_t rows = 0;
+  Digest256 out_sha256{};
+  Digest256 head{};
+};
+// Applies a frozen model to `data_path` (checked against the holdout's
+// digests; holdout rows are refused with a `refusal` entry) and writes
+// `id,prediction[,p_CLASS...]`, then appends an `apply` entry.
+Result<PredictReport> PredictWithModel(const PredictRequest& request);
+
+}  // namespace unseen
+
+#endif  // UNSEEN_HARNESS_WORKFLOW_MODELS_H_

@@ -1,0 +1,215 @@
+// fit, models and predict through the binary, and the classic leaks: each
+// is refused (exit 1, a refusal entry) or impossible by construction.
+#include <gtest/gtest.h>
+
+#include <nlohmann/json.hpp>
+#include <set>
+#include <sstream>
+#include <string>
+
+#include "tests/testing/sample_data.h"
+#include "tests/testing/testing.h"
+
+namespace unseen {
+namespace {
+
+using json = nlohmann::json;
+using testing::ReadFile;
+using testing::RunResult;
+using testing::RunUnseen;
+using testing::ShellQuote;
+using testing::TempDir;
+using testing::WriteFile;
+
+constexpr const char* kSpec = R"(
+[[transform]]
+kind = "onehot"
+[[transform]]
+kind = "standardize"
+[learner]
+kind = "logistic"
+l2 = [0.1, 10.0]
+[select]
+folds = 4
+metric = "error_rate"
+seed = 2
+)";
+
+class FitTest : public ::testing::Test {
+ protected:
+  void SetUp() override {
+    WriteFile(dir_.File("d.csv"), testing::SampleCsv(400, 20, 6));
+    WriteFile(dir_.File("spec.toml"), kSpec);
+    ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
+    ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
+                        " --target label --id id --group site --time day").exit_code, 0);
+    RunResult seal = RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                               " --strategy group --seed 1 --dev-out " + Q("dev.csv"));
+    ASSERT_EQ(seal.exit_code, 0) << seal.err;
+  }
+  std::string Q(const std::string& name) { return ShellQuote(dir_.File(name)); }
+  RunResult Fit(const std::string& name, const std::string& extra = "") {
+    return RunUnseen("fit --json --ledger " + Q("l") + " --spec " + Q("spec.toml") + " --name " + name +
+                     " " + extra);
+  }
+  json History() { return json::parse(RunUnseen("history --json --ledger " + Q("l")).out); }
+  // The source rows that are not in the dev file: the holdout, as a modeller
+  // holding the original file could rebuild it.
+  std::string HoldoutRows(bool new_ids, bool drop_target) {
+    std::set<std::string> dev;
+    std::istringstream devin(ReadFile(dir_.File("dev.csv")));
+    std::string line;
+    while (std::getline(devin, line)) dev.insert(line.substr(0, line.find(',')));
+    std::istringstream in(ReadFile(dir_.File("d.csv")));
+    std::getline(in, line);
+    std::string out = drop_target ? "id,site,day,a,b\n" : line + "\n";
+    int n = 0;
+    while (std::getline(in, line)) {
+      std::string id = line.substr(0, line.find(','));
+      if (dev.count(id)) continue;
+      std::string rest = line.substr(line.find(','));
+      if (drop_target) rest = rest.substr(0, rest.rfind(','));
+      out += (new_ids ? "copy" + std::to_string(n++) : id) + rest + "\n";
+    }
+    return out;
+  }
+  TempDir dir_;
+};
+
+TEST_F(FitTest, FitSelectsByGroupAwareCrossValidationAndFreezes) {
+  RunResult r = Fit("m1");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json j = json::parse(r.out);
+  EXPECT_EQ(j["selection"], "k-fold");
+  EXPECT_EQ(j["folds"], 4);
+  EXPECT_EQ(j["candidates"].size(), 2u);
+  EXPECT_EQ(j["candidates"][0]["fold_scores"].size(), 4u);
+  EXPECT_NE(j["caution"].get<std::string>().find("optimistic"), std::string::npos);
+  EXPECT_EQ(j["model_digest"].get<std::string>().size(), 64u);
+
+  json h = History();
+  ASSERT_EQ(h.size(), 5u);
+  EXPECT_EQ(h[3]["kind"], "select");
+  EXPECT_EQ(h[4]["kind"], "fit");
+  EXPECT_EQ(h[4]["body"]["model"], "m1");
+  EXPECT_EQ(h[4]["body"]["candidates_compared"], 2);
+  EXPECT_EQ(h[4]["body"]["parents"], json({3, 4}));
+  EXPECT_EQ(h[4]["body"]["rows"], j["rows"]);
+  // Settings were tuned on folds the transforms never saw: the fold row sets
+  // are recorded, four of them, and each is a stored blob.
+  EXPECT_EQ(h[3]["body"]["fold_row_sets"].size(), 4u);
+
+  json models = json::parse(RunUnseen("models --json --ledger " + Q("l")).out);
+  ASSERT_EQ(models.size(), 1u);
+  EXPECT_EQ(models[0]["name"], "m1");
+  EXPECT_EQ(models[0]["candidates_compared"], 2);
+  EXPECT_EQ(models[0]["tainted"], false);
+  json shown = json::parse(RunUnseen("models --json --ledger " + Q("l") + " --show m1").out);
+  EXPECT_EQ(shown["pipeline"]["learner"]["kind"], "logistic");
+  EXPECT_EQ(shown["pipeline"]["transforms"][1]["kind"], "standardize");
+  EXPECT_EQ(RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k")).exit_code, 0);
+}
+
+TEST_F(FitTest, SameSpecDataAndSeedGiveTheSameModelDigest) {
+  RunResult a = Fit("a"), b = Fit("b");
+  ASSERT_EQ(a.exit_code, 0) << a.err;
+  ASSERT_EQ(b.exit_code, 0) << b.err;
+  // The name is part of the model, so compare the pipelines.
+  json ma = json::parse(RunUnseen("models --json --ledger " + Q("l") + " --show a").out);
+  json mb = json::parse(RunUnseen("models --json --ledger " + Q("l") + " --show b").out);
+  EXPECT_EQ(ma["pipeline"].dump(), mb["pipeline"].dump());
+  EXPECT_EQ(json::parse(a.out)["candidates"], json::parse(b.out)["candidates"]);
+}
+
+TEST_F(FitTest, DuplicateModelNameIsExitTwo) {
+  ASSERT_EQ(Fit("m").exit_code, 0);
+  std::string before = ReadFile(dir_.File("l"));
+  RunResult again = Fit("m");
+  EXPECT_EQ(again.exit_code, 2);
+  EXPECT_NE(again.err.find("already exists"), std::string::npos) << again.err;
+  EXPECT_EQ(ReadFile(dir_.File("l")), before);
+}
+
+TEST_F(FitTest, ScalerFittedOnDevPlusHoldoutRowsIsRefused) {
+  // The whole source file holds the holdout rows too.
+  RunResult r = Fit("leaky", "--data " + Q("d.csv"));
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("rows match sealed holdout rows"), std::string::npos) << r.err;
+  json h = History();
+  EXPECT_EQ(h.back()["kind"], "refusal");
+  EXPECT_EQ(h.back()["body"]["command"], "fit");
+  EXPECT_GT(h.back()["body"]["details"]["holdout_rows"].get<int>(), 0);
+  EXPECT_TRUE(json::parse(RunUnseen("models --json --ledger " + Q("l")).out).empty());
+}
+
+TEST_F(FitTest, FeaturesChosenOnAllRowsAreRefused) {
+  WriteFile(dir_.File("spec.toml"),
+            "[[transform]]\nkind = \"select_topk\"\nk = 1\ncolumns = [\"a\", \"b\"]\n"
+            "[[transform]]\nkind = \"onehot\"\n[learner]\nkind = \"logistic\"\n");
+  RunResult r = Fit("chosen-on-all", "--data " + Q("d.csv"));
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_EQ(History().back()["kind"], "refusal");
+}
+
+TEST_F(FitTest, HoldoutCopiedInUnderAnotherNameIsRefused) {
+  WriteFile(dir_.File("innocent.csv"), HoldoutRows(/*new_ids=*/true, /*drop_target=*/false));
+  RunResult r = Fit("copied", "--data " + Q("innocent.csv"));
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("rows match sealed holdout rows (first lines: 2, 3, 4, 5, 6)"), std::string::npos)
+      << r.err;
+  // Unlabelled, the copy is still recognised by its feature digests.
+  ASSERT_EQ(Fit("m").exit_code, 0);
+  WriteFile(dir_.File("unlabelled.csv"), HoldoutRows(true, /*drop_target=*/true));
+  RunResult p = RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("unlabelled.csv") +
+                          " --out " + Q("p.csv"));
+  EXPECT_EQ(p.exit_code, 1) << p.err;
+  EXPECT_EQ(History().back()["body"]["command"], "predict");
+}
+
+TEST_F(FitTest, RowsThatAreNotDevRowsAreRefused) {
+  WriteFile(dir_.File("other.csv"), testing::SampleCsv(50, 5, 77));
+  RunResult r = Fit("other", "--data " + Q("other.csv"));
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("are not development rows"), std::string::npos) << r.err;
+}
+
+TEST_F(FitTest, PredictWritesIdsPredictionsAndProbabilities) {
+  ASSERT_EQ(Fit("m").exit_code, 0);
+  RunResult p = RunUnseen("predict --json --ledger " + Q("l") + " --model m --data " + Q("dev.csv") +
+                          " --out " + Q("p.csv"));
+  ASSERT_EQ(p.exit_code, 0) << p.err;
+  std::string out = ReadFile(dir_.File("p.csv"));
+  EXPECT_EQ(out.substr(0, out.find('\n')), "id,prediction,p_no,p_yes");
+  json j = json::parse(p.out);
+  std::istringstream dev(ReadFile(dir_.File("dev.csv")));
+  std::string line;
+  size_t dev_rows = 0;
+  std::getline(dev, line);
+  while (std::getline(dev, line)) ++dev_rows;
+  EXPECT_EQ(j["rows"], dev_rows);
+  EXPECT_EQ(History().back()["kind"], "apply");
+  // New rows that are not in the source at all are fine to predict.
+  WriteFile(dir_.File("new.csv"), "id,site,day,a,b\nn1,s1,3,12.5,2\nn2,s9,9,99.0,6\n");
+  RunResult n = RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("new.csv") +
+                          " --out " + Q("n.csv"));
+  EXPECT_EQ(n.exit_code, 0) << n.err;
+  EXPECT_EQ(ReadFile(dir_.File("n.csv")).substr(0, 23), "id,prediction,p_no,p_ye");
+}
+
+TEST_F(FitTest, BadSpecsAreExitTwoWithTheSpecLine) {
+  struct Case {
+    std::string text, where;
+  };
+  for (const Case& c : {Case{"[learner]\nkind = \"forest\"\n", ":2:"},
+                        Case{"[learner]\nkind = \"ridge\"\nl2 = \"high\"\n", ":3:"},
+                        Case{"[[transform]]\nkind = \"standardize\"\ncolumns = [\"nowhere\"]\n"
+                             "[learner]\nkind = \"logistic\"\n", ":3:"}}) {
+    WriteFile(dir_.File("bad.toml"), c.text);
+    RunResult r = RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("bad.toml") + " --name x");
+    EXPECT_EQ(r.exit_code, 2) << c.text << r.err;
+    EXPECT_NE(r.err.find(dir_.File("bad.toml") + c.where), std::string::npos) << c.text << r.err;
+  }
+}
+
+}  // namespace
+}  // namespace unseen
