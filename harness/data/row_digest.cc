@@ -14,7 +14,12 @@ CellKind ClassifyCell(std::string_view cell, double* number) {
 
 void AppendCanonicalCell(std::string_view cell, std::string* out) {
   double v = 0;
-  switch (ClassifyCell(cell, &v)) {
+  CellKind kind = ClassifyCell(cell, &v);
+  AppendClassifiedCell(kind, v, cell, out);
+}
+
+void AppendClassifiedCell(CellKind kind, double v, std::string_view cell, std::string* out) {
+  switch (kind) {
     case CellKind::kMissing:
       out->push_back('\x00');
       return;

@@ -33,6 +33,8 @@ CellKind ClassifyCell(std::string_view cell, double* number);
 
 // Appends one cell's canonical bytes to *out.
 void AppendCanonicalCell(std::string_view cell, std::string* out);
+// The same for a cell already classified (`number` is read for kNumber only).
+void AppendClassifiedCell(CellKind kind, double number, std::string_view cell, std::string* out);
 
 // Hashes rows; reuses its buffers, so keep one per thread.
 class RowDigester {

@@ -128,17 +128,24 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
   Tally t;
   t.numeric.assign(ncol, 0);
   t.missing.assign(ncol, 0);
-  RowDigester all_digester;
-  RowDigester content_digester(rc.id ? std::vector<size_t>{*rc.id} : std::vector<size_t>{});
+  std::string canonical, label;
+  Sha256 sha;
+  scan.row_digests.reserve(static_cast<size_t>(csv->size() / 64));
   MerkleBuilder merkle;
   const bool regression_declared = options.task == TaskKind::kRegression;
   uint64_t next_progress = 0;
 
   Status parsed = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
     const auto& f = *r.fields;
+    // Each cell is classified once and feeds the tallies and the canonical bytes.
+    canonical.clear();
+    size_t id_begin = 0, id_end = 0;
     for (size_t c = 0; c < ncol; ++c) {
-      double v;
+      double v = 0;
       CellKind k = ClassifyCell(f[c], &v);
+      if (rc.id && c == *rc.id) id_begin = canonical.size();
+      AppendClassifiedCell(k, v, f[c], &canonical);
+      if (rc.id && c == *rc.id) id_end = canonical.size();
       if (k == CellKind::kMissing) ++t.missing[c];
       if (k == CellKind::kNumber) ++t.numeric[c];
       if (c != rc.target) continue;
@@ -156,16 +163,32 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
         }
         t.target_all_numeric = false;
       }
-      if (t.labels.size() <= kMaxClasses) ++t.labels[CanonicalLabel(f[c])];
+      if (t.labels.size() <= kMaxClasses) {
+        if (k == CellKind::kNumber) {
+          char buf[32];
+          auto res = std::to_chars(buf, buf + sizeof buf, v == 0 ? 0.0 : v);
+          label.assign(buf, res.ptr);
+        } else {
+          label.assign(f[c].data(), f[c].size());
+        }
+        auto it = t.labels.find(label);
+        if (it != t.labels.end()) ++it->second;
+        else t.labels.emplace(label, 1);
+      }
     }
     for (const auto& col : {rc.id, rc.group, rc.time}) {
       if (col) UNSEEN_RETURN_IF_ERROR(RequireValue(*csv, r, *col, ColumnRoleName(info.columns[*col].role)));
     }
     if (rc.id) t.id_hashes.emplace_back(Fnv1a(f[*rc.id]), r.offset);
-    RowDigest d = all_digester.Digest(f);
+    sha.Update(canonical);
+    RowDigest d = TruncateToRowDigest(sha.Finish());
     scan.row_digests.push_back(d);
     merkle.AddLeaf(d.data(), d.size());
-    if (rc.id) scan.content_digests.push_back(content_digester.Digest(f));
+    if (rc.id) {
+      sha.Update(canonical.data(), id_begin);
+      sha.Update(canonical.data() + id_end, canonical.size() - id_end);
+      scan.content_digests.push_back(TruncateToRowDigest(sha.Finish()));
+    }
     if (options.progress && r.offset >= next_progress) {
       options.progress(static_cast<double>(r.offset) / static_cast<double>(csv->size()));
       next_progress = r.offset + (64u << 20);
