@@ -20,6 +20,7 @@ Runner SetupStatus(CLI::App& app);
 Runner SetupFit(CLI::App& app);
 Runner SetupModels(CLI::App& app);
 Runner SetupPredict(CLI::App& app);
+Runner SetupExport(CLI::App& app);
 
 }  // namespace unseen::cli
 

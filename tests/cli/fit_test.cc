@@ -3,6 +3,7 @@
 #include <gtest/gtest.h>
 
 #include <nlohmann/json.hpp>
+#include <map>
 #include <set>
 #include <sstream>
 #include <string>
@@ -194,6 +195,36 @@ TEST_F(FitTest, PredictWritesIdsPredictionsAndProbabilities) {
                           " --out " + Q("n.csv"));
   EXPECT_EQ(n.exit_code, 0) << n.err;
   EXPECT_EQ(ReadFile(dir_.File("n.csv")).substr(0, 23), "id,prediction,p_no,p_ye");
+}
+
+TEST_F(FitTest, ExportWritesDevRowsAndGroupAwareFolds) {
+  RunResult r = RunUnseen("export --json --ledger " + Q("l") + " --out " + Q("all.csv") + " --folds 3 --out-dir " +
+                          ShellQuote(dir_.path()) + " --seed 5");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  // The source has an id column, so the export is exactly the dev file.
+  EXPECT_EQ(ReadFile(dir_.File("all.csv")), ReadFile(dir_.File("dev.csv")));
+  json j = json::parse(r.out);
+  ASSERT_EQ(j["folds"].size(), 3u);
+  size_t total = 0;
+  std::map<std::string, int> fold_of_site;
+  for (int k = 0; k < 3; ++k) {
+    std::istringstream in(ReadFile(dir_.File("fold_" + std::to_string(k + 1) + ".csv")));
+    std::string line;
+    std::getline(in, line);
+    while (std::getline(in, line)) {
+      ++total;
+      std::string site = line.substr(line.find(',') + 1);
+      site = site.substr(0, site.find(','));
+      auto [it, fresh] = fold_of_site.emplace(site, k);
+      EXPECT_EQ(it->second, k) << "site " << site << " is in two folds";
+    }
+  }
+  EXPECT_EQ(total, j["rows"].get<size_t>());
+  json h = History();
+  EXPECT_EQ(h.back()["kind"], "export");
+  EXPECT_EQ(h.back()["body"]["rows"], j["rows"]);
+  EXPECT_EQ(h.back()["body"]["folds"].size(), 3u);
+  EXPECT_EQ(RunUnseen("verify --ledger " + Q("l")).exit_code, 0);
 }
 
 TEST_F(FitTest, BadSpecsAreExitTwoWithTheSpecLine) {
