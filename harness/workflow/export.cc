@@ -1,7 +1,5 @@
 #include "harness/workflow/export.h"
 
-#include <cstdio>
-#include <cstring>
 #include <nlohmann/json.hpp>
 
 #include "harness/data/csv.h"
@@ -9,6 +7,7 @@
 #include "harness/folds.h"
 #include "harness/workflow/dataset.h"
 #include "harness/workflow/ledger_state.h"
+#include "harness/workflow/staged_file.h"
 #include "storage/ledger.h"
 #include "storage/row_set.h"
 
@@ -16,46 +15,6 @@ namespace unseen {
 
 using json = nlohmann::json;
 
-namespace {
-
-// An output file written to a temporary name, moved into place by Finish().
-class OutFile {
- public:
-  explicit OutFile(std::string path) : path_(std::move(path)), tmp_(path_ + ".partial") {}
-  ~OutFile() {
-    if (f_) std::fclose(f_);
-    if (!done_) std::remove(tmp_.c_str());
-  }
-  Status Open() {
-    f_ = std::fopen(tmp_.c_str(), "wb");
-    if (!f_) return Status::InvalidArgument("cannot write " + path_ + ": " + std::strerror(errno));
-    return Status::OK();
-  }
-  Status Write(std::string_view s) {
-    sha_.Update(s);
-    if (std::fwrite(s.data(), 1, s.size(), f_) != s.size()) return Status::IOError("write failed: " + path_);
-    return Status::OK();
-  }
-  Status Close(Digest256* digest) {
-    *digest = sha_.Finish();
-    bool ok = std::fclose(f_) == 0;
-    f_ = nullptr;
-    return ok ? Status::OK() : Status::IOError("cannot finish " + path_);
-  }
-  Status Finish() {
-    if (std::rename(tmp_.c_str(), path_.c_str()) != 0) return Status::IOError("cannot move " + tmp_);
-    done_ = true;
-    return Status::OK();
-  }
-
- private:
-  std::string path_, tmp_;
-  FILE* f_ = nullptr;
-  Sha256 sha_;
-  bool done_ = false;
-};
-
-}  // namespace
 
 Result<ExportReport> ExportRows(const ExportRequest& req) {
   if (req.folds == 1 || req.folds < 0) return Status::InvalidArgument("--folds: expected 2 or more");
@@ -105,13 +64,13 @@ Result<ExportReport> ExportRows(const ExportRequest& req) {
   const bool add_row = !src.ColumnOf(ColumnRole::kId).has_value();
   std::string header = (add_row ? std::string(kRowColumn) + std::string(1, src.delimiter) : "") +
                        std::string(csv->header_raw()) + "\n";
-  OutFile all(req.out_path);
+  StagedFile all(req.out_path, "--out");
   UNSEEN_RETURN_IF_ERROR(all.Open());
   UNSEEN_RETURN_IF_ERROR(all.Write(header));
-  std::vector<std::unique_ptr<OutFile>> fold_files;
+  std::vector<std::unique_ptr<StagedFile>> fold_files;
   std::vector<std::vector<uint32_t>> fold_rows(static_cast<size_t>(req.folds));
   for (int k = 0; k < req.folds; ++k) {
-    fold_files.push_back(std::make_unique<OutFile>(req.out_dir + "/fold_" + std::to_string(k + 1) + ".csv"));
+    fold_files.push_back(std::make_unique<StagedFile>(req.out_dir + "/fold_" + std::to_string(k + 1) + ".csv", "--out-dir"));
     UNSEEN_RETURN_IF_ERROR(fold_files.back()->Open());
     UNSEEN_RETURN_IF_ERROR(fold_files.back()->Write(header));
   }
@@ -157,8 +116,8 @@ Result<ExportReport> ExportRows(const ExportRequest& req) {
                              (req.folds > 0 ? " in " + std::to_string(req.folds) + " folds" : std::string())}};
   UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("export", req.actor, fields.dump(), blobs));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
-  UNSEEN_RETURN_IF_ERROR(all.Finish());
-  for (auto& f : fold_files) UNSEEN_RETURN_IF_ERROR(f->Finish());
+  UNSEEN_RETURN_IF_ERROR(all.MoveIntoPlace());
+  for (auto& f : fold_files) UNSEEN_RETURN_IF_ERROR(f->MoveIntoPlace());
   report.head = e.hash;
   return report;
 }

@@ -6,6 +6,7 @@
 #include "harness/pipeline/pipeline.h"
 #include "harness/workflow/dataset.h"
 #include "harness/workflow/ledger_state.h"
+#include "harness/workflow/staged_file.h"
 
 namespace unseen {
 
@@ -70,13 +71,13 @@ Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d,
     }
     text += "\n";
   }
-  std::string tmp = path + ".partial";
-  FILE* f = std::fopen(tmp.c_str(), "wb");
-  if (!f) return Status::InvalidArgument("--out: cannot write " + path);
-  bool ok = std::fwrite(text.data(), 1, text.size(), f) == text.size();
-  ok = std::fclose(f) == 0 && ok;
-  if (!ok || std::rename(tmp.c_str(), path.c_str()) != 0) return Status::IOError("--out: cannot write " + path);
-  return Sha256Of(text);
+  StagedFile out(path, "--out");
+  UNSEEN_RETURN_IF_ERROR(out.Open());
+  UNSEEN_RETURN_IF_ERROR(out.Write(text));
+  Digest256 digest{};
+  UNSEEN_RETURN_IF_ERROR(out.Close(&digest));
+  UNSEEN_RETURN_IF_ERROR(out.MoveIntoPlace());
+  return digest;
 }
 
 }  // namespace

@@ -16,6 +16,7 @@
 #include "harness/data/csv.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
+#include "harness/workflow/staged_file.h"
 #include "storage/row_set.h"
 #include "storage/sealed_blob.h"
 
@@ -106,56 +107,6 @@ void MoveToDev(const std::vector<uint32_t>& rows, SplitResult* split) {
   split->dev = std::move(dev);
 }
 
-// A dev file written beside its destination and moved into place only
-// after the ledger commits.
-class DevFile {
- public:
-  explicit DevFile(std::string path)
-      : path_(std::move(path)), tmp_(path_ + ".partial-" + std::to_string(::getpid())) {}
-  ~DevFile() {
-    if (f_) std::fclose(f_);
-    if (!done_) ::unlink(tmp_.c_str());
-  }
-  Status Open() {
-    f_ = std::fopen(tmp_.c_str(), "wb");
-    if (!f_) return Status::InvalidArgument("--dev-out: cannot write " + tmp_ + ": " + std::strerror(errno));
-    std::setvbuf(f_, nullptr, _IOFBF, 1 << 20);
-    return Status::OK();
-  }
-  Status Write(std::string_view bytes) {
-    sha_.Update(bytes);
-    size_ += bytes.size();
-    if (std::fwrite(bytes.data(), 1, bytes.size(), f_) != bytes.size()) {
-      return Status::IOError("--dev-out: write to " + tmp_ + " failed: " + std::strerror(errno));
-    }
-    return Status::OK();
-  }
-  Status Close(Digest256* digest) {
-    *digest = sha_.Finish();
-    int rc = std::fflush(f_) != 0 || ::fsync(fileno(f_)) != 0;
-    rc |= std::fclose(f_) != 0;
-    f_ = nullptr;
-    if (rc) return Status::IOError("--dev-out: cannot finish " + tmp_ + ": " + std::strerror(errno));
-    return Status::OK();
-  }
-  Status MoveIntoPlace() {
-    if (std::rename(tmp_.c_str(), path_.c_str()) != 0) {
-      return Status::IOError("--dev-out: cannot move " + tmp_ + " to " + path_ + ": " +
-                             std::strerror(errno));
-    }
-    done_ = true;
-    return Status::OK();
-  }
-  uint64_t size() const { return size_; }
-
- private:
-  std::string path_, tmp_;
-  FILE* f_ = nullptr;
-  Sha256 sha_;
-  uint64_t size_ = 0;
-  bool done_ = false;
-};
-
 bool SameFile(const std::string& a, const std::string& b) {
   struct stat sa, sb;
   return ::stat(a.c_str(), &sa) == 0 && ::stat(b.c_str(), &sb) == 0 && sa.st_dev == sb.st_dev &&
@@ -171,7 +122,7 @@ struct Pass2Output {
 // Pass 2: dev rows to the dev file, holdout rows into the sealed blob.
 Status WriteRows(const CsvFile& csv, const SourceInfo& src, const SplitResult& split,
                  const std::vector<uint32_t>& flagged, const Key& key, const std::string& aad,
-                 DevFile* dev, Pass2Output* out, const std::function<void(double)>& progress) {
+                 StagedFile* dev, Pass2Output* out, const std::function<void(double)>& progress) {
   UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<SealedWriter> sealer, SealedWriter::Create(key, aad));
   std::string header = std::string(csv.header_raw()) + "\n";
   UNSEEN_RETURN_IF_ERROR(dev->Write(header));
@@ -307,7 +258,7 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(BlobRef holdout_ref, ledger->PutBlob("row-set", holdout_set.Serialize()));
   UNSEEN_ASSIGN_OR_RETURN(BlobRef dev_ref, ledger->PutBlob("row-set", dev_set.Serialize()));
 
-  DevFile dev(req.dev_out);
+  StagedFile dev(req.dev_out, "--dev-out");
   UNSEEN_RETURN_IF_ERROR(dev.Open());
   Pass2Output out;
   std::string aad = SealedAad(state.ledger_id, holdout_ref.digest);
