@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # The demo workflow on a fresh machine: install, build, then keygen, init,
-# seal, verify, history and status on the invented Fernbrook crate data.
+# seal, verify, fit, models, predict, export, history and status on the
+# invented Fernbrook crate data.
 # Everything it writes goes to out/demo/ (recreated on each run).
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -15,8 +16,14 @@ build/examples/make_demo_data --out "$demo/crates.csv" --rows 2000 --seed 7
 "$unseen" init --ledger "$demo/crates.ledger" --data "$demo/crates.csv" --target passed \
   --id crate_id --group orchard --time picked_on
 "$unseen" seal --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" --fraction 0.2 \
-  --strategy stratified --seed 11 --dev-out "$demo/crates.dev.csv"
+  --strategy group --seed 11 --dev-out "$demo/crates.dev.csv"
 head=$("$unseen" head --ledger "$demo/crates.ledger")
 "$unseen" verify --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" --expect-head "$head"
+"$unseen" fit --ledger "$demo/crates.ledger" --spec examples/crates.spec.toml --name crates-logistic
+"$unseen" models --ledger "$demo/crates.ledger"
+"$unseen" predict --ledger "$demo/crates.ledger" --model crates-logistic --data "$demo/crates.dev.csv" \
+  --out "$demo/crates.dev.predictions.csv"
+"$unseen" export --ledger "$demo/crates.ledger" --out "$demo/export.csv" --folds 3 --out-dir "$demo"
+"$unseen" verify --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key"
 "$unseen" history --ledger "$demo/crates.ledger"
 "$unseen" status --ledger "$demo/crates.ledger"
