@@ -21,6 +21,7 @@ Runner SetupFit(CLI::App& app);
 Runner SetupModels(CLI::App& app);
 Runner SetupPredict(CLI::App& app);
 Runner SetupExport(CLI::App& app);
+Runner SetupScore(CLI::App& app);
 
 }  // namespace unseen::cli
 

@@ -17,7 +17,8 @@ int main(int argc, char** argv) {
   std::vector<Runner> runners = {SetupKeygen(app), SetupInit(app),    SetupSeal(app),
                                  SetupVerify(app), SetupHead(app),    SetupHistory(app),
                                  SetupStatus(app), SetupFit(app),     SetupModels(app),
-                                 SetupPredict(app), SetupExport(app)};
+                                 SetupPredict(app), SetupExport(app),
+                                 SetupScore(app)};
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -227,6 +227,50 @@ TEST_F(FitTest, ExportWritesDevRowsAndGroupAwareFolds) {
   EXPECT_EQ(RunUnseen("verify --ledger " + Q("l")).exit_code, 0);
 }
 
+TEST_F(FitTest, ScoreRatesExportedRowsAndRefusesOthers) {
+  ASSERT_EQ(Fit("m").exit_code, 0);
+  ASSERT_EQ(RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("dev.csv") + " --out " +
+                      Q("p.csv")).exit_code, 0);
+  // Nothing exported yet: refused.
+  RunResult early = RunUnseen("score --ledger " + Q("l") + " --predictions " + Q("p.csv") + " --on outside");
+  EXPECT_EQ(early.exit_code, 1) << early.err;
+  EXPECT_NE(early.err.find("was never exported"), std::string::npos) << early.err;
+  ASSERT_EQ(RunUnseen("export --ledger " + Q("l") + " --out " + Q("all.csv")).exit_code, 0);
+  RunResult ok = RunUnseen("score --json --ledger " + Q("l") + " --predictions " + Q("p.csv") + " --on outside");
+  ASSERT_EQ(ok.exit_code, 0) << ok.err;
+  json j = json::parse(ok.out);
+  EXPECT_EQ(j["metric"], "error_rate");
+  // Recompute the error rate by hand from the two files.
+  std::map<std::string, std::string> truth;
+  std::istringstream dev(ReadFile(dir_.File("dev.csv")));
+  std::string line;
+  std::getline(dev, line);
+  while (std::getline(dev, line)) truth[line.substr(0, line.find(','))] = line.substr(line.rfind(',') + 1);
+  std::istringstream pred(ReadFile(dir_.File("p.csv")));
+  std::getline(pred, line);
+  double wrong = 0, n = 0;
+  while (std::getline(pred, line)) {
+    std::string id = line.substr(0, line.find(','));
+    std::string rest = line.substr(line.find(',') + 1);
+    wrong += truth[id] != rest.substr(0, rest.find(','));
+    n += 1;
+  }
+  EXPECT_NEAR(j["value"].get<double>(), wrong / n, 1e-12);
+  EXPECT_EQ(j["rows"], n);
+  EXPECT_EQ(History().back()["kind"], "score");
+  // Predictions for holdout rows are refused and recorded.
+  std::string holdout = HoldoutRows(/*new_ids=*/false, /*drop_target=*/false);
+  std::istringstream hin(holdout);
+  std::getline(hin, line);
+  std::string preds = "id,prediction\n";
+  while (std::getline(hin, line)) preds += line.substr(0, line.find(',')) + ",yes\n";
+  WriteFile(dir_.File("hp.csv"), preds);
+  RunResult bad = RunUnseen("score --ledger " + Q("l") + " --predictions " + Q("hp.csv") + " --on outside");
+  EXPECT_EQ(bad.exit_code, 1) << bad.err;
+  EXPECT_NE(bad.err.find("sealed holdout rows"), std::string::npos) << bad.err;
+  EXPECT_EQ(History().back()["kind"], "refusal");
+}
+
 TEST_F(FitTest, BadSpecsAreExitTwoWithTheSpecLine) {
   struct Case {
     std::string text, where;
