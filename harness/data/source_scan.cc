@@ -3,7 +3,11 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <array>
+#include <condition_variable>
 #include <future>
+#include <mutex>
+#include <thread>
 #include <unordered_map>
 
 #include "harness/data/row_digest.h"
@@ -100,6 +104,95 @@ Status CheckDuplicateIds(const CsvFile& csv, Tally* t, size_t id_col) {
   return Status::OK();
 }
 
+// Hashes canonical rows on a second thread, in order, in batches: the row
+// digest, the content digest (the row without its id cell) and the Merkle
+// tree. The parsing thread only encodes rows and hands batches over.
+class RowHasher {
+ public:
+  RowHasher(bool with_content, SourceScan* out)
+      : with_content_(with_content), out_(out), worker_([this] { Work(); }) {}
+  ~RowHasher() { (void)Finish(); }
+
+  // Adds one row's canonical bytes; [id_begin, id_end) is the id cell.
+  void Add(std::string_view canonical, size_t id_begin, size_t id_end) {
+    size_t start = current_.bytes.size();
+    current_.bytes.append(canonical.data(), canonical.size());
+    current_.rows.push_back({start, start + id_begin, start + id_end, start + canonical.size()});
+    if (current_.rows.size() >= kBatchRows) Handoff();
+  }
+
+  // Hashes what is left and returns the Merkle root. Idempotent.
+  Digest256 Finish() {
+    if (worker_.joinable()) {
+      Handoff();
+      {
+        std::lock_guard<std::mutex> lock(mu_);
+        done_ = true;
+      }
+      cv_.notify_all();
+      worker_.join();
+    }
+    return merkle_.Root();
+  }
+
+ private:
+  static constexpr size_t kBatchRows = 8192;
+  struct Batch {
+    std::string bytes;
+    std::vector<std::array<size_t, 4>> rows;  // start, id begin, id end, end
+  };
+
+  void Handoff() {
+    if (current_.rows.empty()) return;
+    std::unique_lock<std::mutex> lock(mu_);
+    cv_.wait(lock, [this] { return !pending_full_; });
+    std::swap(pending_, current_);
+    pending_full_ = true;
+    lock.unlock();
+    cv_.notify_all();
+    current_.bytes.clear();
+    current_.rows.clear();
+  }
+
+  void Work() {
+    Sha256 sha;
+    Batch batch;
+    for (;;) {
+      {
+        std::unique_lock<std::mutex> lock(mu_);
+        cv_.wait(lock, [this] { return pending_full_ || done_; });
+        if (!pending_full_) return;
+        std::swap(batch, pending_);
+        pending_full_ = false;
+      }
+      cv_.notify_all();
+      const char* b = batch.bytes.data();
+      for (const auto& r : batch.rows) {
+        sha.Update(b + r[0], r[3] - r[0]);
+        RowDigest d = TruncateToRowDigest(sha.Finish());
+        out_->row_digests.push_back(d);
+        merkle_.AddLeaf(d.data(), d.size());
+        if (with_content_) {
+          sha.Update(b + r[0], r[1] - r[0]);
+          sha.Update(b + r[2], r[3] - r[2]);
+          out_->content_digests.push_back(TruncateToRowDigest(sha.Finish()));
+        }
+      }
+      batch.bytes.clear();
+      batch.rows.clear();
+    }
+  }
+
+  const bool with_content_;
+  SourceScan* out_;
+  MerkleBuilder merkle_;
+  Batch current_, pending_;
+  bool pending_full_ = false, done_ = false;
+  std::mutex mu_;
+  std::condition_variable cv_;
+  std::thread worker_;  // last: starts after every member above exists
+};
+
 }  // namespace
 
 std::string CanonicalLabel(std::string_view cell) {
@@ -129,9 +222,8 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
   t.numeric.assign(ncol, 0);
   t.missing.assign(ncol, 0);
   std::string canonical, label;
-  Sha256 sha;
   scan.row_digests.reserve(static_cast<size_t>(csv->size() / 64));
-  MerkleBuilder merkle;
+  RowHasher hasher(rc.id.has_value(), &scan);
   const bool regression_declared = options.task == TaskKind::kRegression;
   uint64_t next_progress = 0;
 
@@ -180,21 +272,14 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
       if (col) UNSEEN_RETURN_IF_ERROR(RequireValue(*csv, r, *col, ColumnRoleName(info.columns[*col].role)));
     }
     if (rc.id) t.id_hashes.emplace_back(Fnv1a(f[*rc.id]), r.offset);
-    sha.Update(canonical);
-    RowDigest d = TruncateToRowDigest(sha.Finish());
-    scan.row_digests.push_back(d);
-    merkle.AddLeaf(d.data(), d.size());
-    if (rc.id) {
-      sha.Update(canonical.data(), id_begin);
-      sha.Update(canonical.data() + id_end, canonical.size() - id_end);
-      scan.content_digests.push_back(TruncateToRowDigest(sha.Finish()));
-    }
+    hasher.Add(canonical, id_begin, id_end);
     if (options.progress && r.offset >= next_progress) {
       options.progress(static_cast<double>(r.offset) / static_cast<double>(csv->size()));
       next_progress = r.offset + (64u << 20);
     }
     return Status::OK();
   });
+  Digest256 merkle_root = hasher.Finish();
   auto file = file_digest.get();
   UNSEEN_RETURN_IF_ERROR(parsed);
   if (!file.ok()) return file.status();
@@ -208,7 +293,7 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
                                    " data row(s); expected at least 2");
   }
   if (rc.id) UNSEEN_RETURN_IF_ERROR(CheckDuplicateIds(*csv, &t, *rc.id));
-  info.merkle_root = merkle.Root();
+  info.merkle_root = merkle_root;
 
   for (size_t c = 0; c < ncol; ++c) {
     info.columns[c].missing = t.missing[c];
