@@ -30,25 +30,10 @@ class AdaBoost : public LearnerBase {
   AdaBoost() : LearnerBase("adaboost", true, false) {}
 
   Status SetParams(const json& params) override {
-    ParamReader reader(kind(), params);
-    json base = json{{"kind", "stump"}};
-    int64_t estimators = 50;
-    uint64_t seed = 0;
-    UNSEEN_RETURN_IF_ERROR(reader.Learner("base", &base));
-    UNSEEN_RETURN_IF_ERROR(reader.Integer("estimators", 1, 100000, &estimators));
-    UNSEEN_RETURN_IF_ERROR(reader.Seed("seed", &seed));
-    UNSEEN_RETURN_IF_ERROR(reader.Finish());
-    UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<LearnerBase> probe, MakeNested(kind(), "base", base));
-    base_ = probe->Params();
-    base_["kind"] = probe->kind();
-    estimators_ = estimators;
-    seed_ = seed;
-    return Status::OK();
+    return ReadEnsembleParams(kind(), params, 50, &ensemble_);
   }
 
-  json Params() const override {
-    return json{{"base", base_}, {"estimators", estimators_}, {"seed", seed_}};
-  }
+  json Params() const override { return ensemble_.ToJson(); }
 
  protected:
   Status FitImpl(const Eigen::MatrixXd& X, const Eigen::VectorXd& y) override {
@@ -58,11 +43,11 @@ class AdaBoost : public LearnerBase {
     const Eigen::Index n = X.rows();
     const double k = classes();
     Eigen::VectorXd w = Eigen::VectorXd::Constant(n, 1.0 / static_cast<double>(n));
-    Random random(seed_);
+    Random random(ensemble_.seed);
     double alpha_sum = 0;
-    for (int64_t m = 0; m < estimators_; ++m) {
+    for (int64_t m = 0; m < ensemble_.estimators; ++m) {
       UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<LearnerBase> member,
-                              MakeNested(kind(), "base", base_));
+                              MakeNested(kind(), "base", ensemble_.base));
       Status s;
       if (member->SupportsWeights()) {
         s = member->FitWeighted(X, y, w, task(), classes(), features());
@@ -156,9 +141,7 @@ class AdaBoost : public LearnerBase {
     return votes;
   }
 
-  json base_ = json{{"kind", "stump"}};
-  int64_t estimators_ = 50;
-  uint64_t seed_ = 0;
+  EnsembleParams ensemble_ = {json{{"kind", "stump"}}, 50, 0};
   std::vector<std::unique_ptr<LearnerBase>> members_;
   std::vector<double> alphas_;
   std::vector<double> errors_;

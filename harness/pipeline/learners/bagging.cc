@@ -23,37 +23,21 @@ class Bagging : public LearnerBase {
   Bagging() : LearnerBase("bagging", true, true) {}
 
   Status SetParams(const json& params) override {
-    ParamReader reader(kind(), params);
-    json base = json{{"kind", "stump"}};
-    int64_t estimators = 10;
-    uint64_t seed = 0;
-    UNSEEN_RETURN_IF_ERROR(reader.Learner("base", &base));
-    UNSEEN_RETURN_IF_ERROR(reader.Integer("estimators", 1, 100000, &estimators));
-    UNSEEN_RETURN_IF_ERROR(reader.Seed("seed", &seed));
-    UNSEEN_RETURN_IF_ERROR(reader.Finish());
-    // Check the nested learner now, so a bad base fails at make time.
-    UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<LearnerBase> probe, MakeNested(kind(), "base", base));
-    base_ = probe->Params();
-    base_["kind"] = probe->kind();
-    estimators_ = estimators;
-    seed_ = seed;
-    return Status::OK();
+    return ReadEnsembleParams(kind(), params, 10, &ensemble_);
   }
 
-  json Params() const override {
-    return json{{"base", base_}, {"estimators", estimators_}, {"seed", seed_}};
-  }
+  json Params() const override { return ensemble_.ToJson(); }
 
  protected:
   Status FitImpl(const Eigen::MatrixXd& X, const Eigen::VectorXd& y) override {
     members_.clear();
-    Random random(seed_);
+    Random random(ensemble_.seed);
     const Eigen::Index n = X.rows();
     std::vector<Eigen::Index> rows(static_cast<size_t>(n));
-    for (int64_t e = 0; e < estimators_; ++e) {
+    for (int64_t e = 0; e < ensemble_.estimators; ++e) {
       for (Eigen::Index& r : rows) r = static_cast<Eigen::Index>(random.Bounded(n));
       UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<LearnerBase> member,
-                              MakeNested(kind(), "base", base_));
+                              MakeNested(kind(), "base", ensemble_.base));
       Status s = member->Fit(X(rows, Eigen::all), y(rows), task(), classes(), features());
       if (!s.ok()) {
         return Invalid("estimator " + std::to_string(e) + ": " + s.message());
@@ -115,9 +99,7 @@ class Bagging : public LearnerBase {
   }
 
  private:
-  json base_ = json{{"kind", "stump"}};
-  int64_t estimators_ = 10;
-  uint64_t seed_ = 0;
+  EnsembleParams ensemble_ = {json{{"kind", "stump"}}, 10, 0};
   std::vector<std::unique_ptr<LearnerBase>> members_;
 };
 

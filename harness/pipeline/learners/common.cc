@@ -512,6 +512,22 @@ Result<std::unique_ptr<LearnerBase>> MakeNested(const std::string& parent_kind,
   return made;
 }
 
+Status ReadEnsembleParams(const std::string& kind, const json& params, int64_t default_estimators,
+                          EnsembleParams* out) {
+  ParamReader reader(kind, params);
+  EnsembleParams e;
+  e.estimators = default_estimators;
+  UNSEEN_RETURN_IF_ERROR(reader.Learner("base", &e.base));
+  UNSEEN_RETURN_IF_ERROR(reader.Integer("estimators", 1, 100000, &e.estimators));
+  UNSEEN_RETURN_IF_ERROR(reader.Seed("seed", &e.seed));
+  UNSEEN_RETURN_IF_ERROR(reader.Finish());
+  UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<LearnerBase> probe, MakeNested(kind, "base", e.base));
+  e.base = probe->Params();
+  e.base["kind"] = probe->kind();
+  *out = std::move(e);
+  return Status::OK();
+}
+
 Result<std::unique_ptr<LearnerBase>> LoadMember(const LearnerBase& parent, const json& fitted) {
   const std::string where = "learner '" + parent.kind() + "': fitted params: estimator: ";
   if (!fitted.is_object() || !fitted.contains("kind") || !fitted["kind"].is_string() ||

@@ -169,6 +169,23 @@ Result<std::unique_ptr<LearnerBase>> MakeNested(const std::string& parent_kind,
                                                 const std::string& parameter,
                                                 const nlohmann::json& spec);
 
+// The parameters bagging and adaboost share: a nested base learner (made
+// once here, so a bad base fails at make time, and stored with its defaults
+// filled in), the number of estimators and a seed.
+struct EnsembleParams {
+  nlohmann::json base = nlohmann::json{{"kind", "stump"}};
+  int64_t estimators = 0;
+  uint64_t seed = 0;
+  nlohmann::json ToJson() const {
+    return nlohmann::json{{"base", base}, {"estimators", estimators}, {"seed", seed}};
+  }
+};
+// Reads `base` [{"kind": "stump"}], `estimators` [default_estimators] and
+// `seed` [0]. InvalidArgument naming the kind and parameter; *out is
+// unchanged on error.
+Status ReadEnsembleParams(const std::string& kind, const nlohmann::json& params,
+                          int64_t default_estimators, EnsembleParams* out);
+
 // Rebuilds a fitted member of an ensemble from its FittedParams; it must be
 // fitted on the same task, classes and features as `parent`.
 Result<std::unique_ptr<LearnerBase>> LoadMember(const LearnerBase& parent,
