@@ -341,6 +341,33 @@ INSTANTIATE_TEST_SUITE_P(
         BadCsv{"DuplicateId", "id,label\nr1,x\nr2,y\nr1,x\n", "--id id", "4:1", "duplicate id 'r1'"}),
     [](const ::testing::TestParamInfo<BadCsv>& info) { return std::string(info.param.name); });
 
+TEST_F(WorkflowTest, DelimiterOptionReadsOtherSeparators) {
+  WriteFile(dir_.File("semi.csv"), "a;b;label\n1;2;x\n3;4;y\n5;6;x\n");
+  RunResult semi = Init("semi.csv", "l1", "--delimiter ';'");
+  ASSERT_EQ(semi.exit_code, 0) << semi.err;
+  EXPECT_EQ(json::parse(semi.out)["delimiter"], ";");
+  EXPECT_EQ(json::parse(semi.out)["columns"][0]["type"], "numeric");
+  WriteFile(dir_.File("tab.csv"), "a\tb\tlabel\n1\t2\tx\n3\t4\ty\n");
+  RunResult tab = Init("tab.csv", "l2", "--delimiter tab");
+  ASSERT_EQ(tab.exit_code, 0) << tab.err;
+  EXPECT_EQ(json::parse(tab.out)["columns"].size(), 3u);
+  RunResult bad = Init("semi.csv", "l3", "--delimiter ';;'");
+  EXPECT_EQ(bad.exit_code, 2);
+  EXPECT_NE(bad.err.find("--delimiter: expected one ASCII character"), std::string::npos) << bad.err;
+  EXPECT_FALSE(Exists("l3"));
+}
+
+TEST_F(WorkflowTest, SealReadsAMovedDataFileWhenItsDigestMatches) {
+  WriteFile(dir_.File("d.csv"), testing::SampleCsv(60));
+  Keygen("k");
+  ASSERT_EQ(Init("d.csv", "l").exit_code, 0);
+  WriteFile(dir_.File("moved.csv"), ReadFile(dir_.File("d.csv")));
+  WriteFile(dir_.File("d.csv"), "replaced\n");
+  RunResult r = Seal("l", "k", "--data " + Q("moved.csv") + " --dev-out " + Q("dev.csv"));
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_EQ(json::parse(r.out)["holdout_rows"], 12);
+}
+
 TEST_F(WorkflowTest, UnknownColumnForARoleIsExitTwo) {
   WriteFile(dir_.File("d.csv"), testing::SampleCsv(20));
   RunResult r = Init("d.csv", "l", "--group nowhere");
