@@ -72,6 +72,18 @@ double LogHypotheses(const std::vector<uint64_t>& reveals_before_freeze,
   return top + std::log(sum);
 }
 
+double LogHypothesesOfWeights(const std::vector<double>& log_weights) {
+  if (log_weights.empty()) return 0;
+  double top = -std::numeric_limits<double>::infinity();
+  for (double w : log_weights) {
+    if (!std::isfinite(w)) return kNaN;
+    top = std::max(top, w);
+  }
+  double sum = 0;
+  for (double w : log_weights) sum += std::exp(w - top);
+  return top + std::log(sum);
+}
+
 uint64_t ResolutionValues(double step, double lo, double hi) {
   const Grid g = MakeGrid(step, lo, hi);
   if (!g.valid) return 0;

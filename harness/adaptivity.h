@@ -20,6 +20,12 @@ namespace unseen {
 double LogHypotheses(const std::vector<uint64_t>& reveals_before_freeze,
                      uint64_t resolution_values);
 
+// ln( sum_j exp(w_j) ): the general form, for reveals that can each take a
+// different number of values. w_j is the sum of ln R_i over the reveals i
+// that came before model j was frozen; LogHypotheses is this with every
+// w_j = r_j ln R. An empty list gives 0; a NaN or infinite w_j gives NaN.
+double LogHypothesesOfWeights(const std::vector<double>& log_weights);
+
 // The number of values a reveal rounded by RoundToResolution can take: the
 // grid lo, lo + step, lo + 2 step, ... up to hi, plus hi itself when the grid
 // does not land on it (0.001 over [0, 1] gives 1001). Returns 0 for a step

@@ -242,6 +242,8 @@ std::string Assumptions(const BoundRequest& r) {
     case BoundMethod::kBernstein:
       what = "each loss lies in " + range + " and the variance is the unbiased sample variance";
       break;
+    case BoundMethod::kMcDiarmid:
+      break;
   }
   return "The holdout rows are an independent, identically distributed sample of the population "
          "the model will meet, " +
@@ -308,8 +310,9 @@ Result<BoundMethod> ParseBoundMethod(std::string_view name) {
   if (name == "hoeffding") return BoundMethod::kHoeffding;
   if (name == "clopper-pearson") return BoundMethod::kClopperPearson;
   if (name == "bernstein") return BoundMethod::kBernstein;
+  if (name == "mcdiarmid") return BoundMethod::kMcDiarmid;
   return Status::InvalidArgument("bound method \"" + std::string(name) +
-                                 "\": expected one of hoeffding, clopper-pearson, bernstein");
+                                 "\": expected one of hoeffding, clopper-pearson, bernstein, mcdiarmid");
 }
 
 const char* BoundMethodName(BoundMethod method) {
@@ -320,6 +323,8 @@ const char* BoundMethodName(BoundMethod method) {
       return "clopper-pearson";
     case BoundMethod::kBernstein:
       return "bernstein";
+    case BoundMethod::kMcDiarmid:
+      return "mcdiarmid";
   }
   return "unknown";
 }

@@ -20,9 +20,11 @@ enum class BoundMethod {
   kHoeffding = 0,       // bounded loss, no variance information
   kClopperPearson = 1,  // exact binomial, for a 0/1 outcome (error rate, accuracy)
   kBernstein = 2,       // empirical Bernstein (Maurer & Pontil 2009, Theorem 4)
+  kMcDiarmid = 3,       // AUC by McDiarmid's inequality (harness/evaluate/metric_bound.h)
 };
 
-// "hoeffding", "clopper-pearson" or "bernstein" (exact, lower case).
+// "hoeffding", "clopper-pearson", "bernstein" or "mcdiarmid" (exact, lower
+// case). ComputeBound takes the first three; MetricBound also the fourth.
 // Returns InvalidArgument naming the text and the accepted names otherwise.
 Result<BoundMethod> ParseBoundMethod(std::string_view name);
 // The name ParseBoundMethod accepts; "unknown" for a value outside the enum.
