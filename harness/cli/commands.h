@@ -22,6 +22,9 @@ Runner SetupModels(CLI::App& app);
 Runner SetupPredict(CLI::App& app);
 Runner SetupExport(CLI::App& app);
 Runner SetupScore(CLI::App& app);
+Runner SetupEval(CLI::App& app);
+Runner SetupBudget(CLI::App& app);
+Runner SetupBound(CLI::App& app);
 
 }  // namespace unseen::cli
 

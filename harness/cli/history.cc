@@ -80,6 +80,7 @@ Runner SetupStatus(CLI::App& app) {
         j["budget_queries"] = st.seal->budget_queries;
         j["budget_remaining"] = st.seal->budget_queries > st.holdout_queries
                                     ? st.seal->budget_queries - st.holdout_queries : 0;
+        j["budget_raises"] = st.budget_raises;
       }
       fmt::print("{}\n", j.dump());
       return Status::OK();
@@ -95,7 +96,10 @@ Runner SetupStatus(CLI::App& app) {
     fmt::print("holdout  sealed: {} rows ({} split, seed {}); dev {} rows\n", seal.holdout_rows,
                seal.strategy, seal.seed, seal.dev_rows);
     uint64_t left = seal.budget_queries > st.holdout_queries ? seal.budget_queries - st.holdout_queries : 0;
-    fmt::print("queries  {} of {} used, {} remaining\n", st.holdout_queries, seal.budget_queries, left);
+    fmt::print("queries  {} of {} used, {} remaining{}\n", st.holdout_queries, seal.budget_queries, left,
+               st.budget_raises == 0 ? std::string()
+                                     : fmt::format(" (the budget was raised {} times after the seal)",
+                                                   st.budget_raises));
     return Status::OK();
   };
 }

@@ -18,7 +18,8 @@ int main(int argc, char** argv) {
                                  SetupVerify(app), SetupHead(app),    SetupHistory(app),
                                  SetupStatus(app), SetupFit(app),     SetupModels(app),
                                  SetupPredict(app), SetupExport(app),
-                                 SetupScore(app)};
+                                 SetupScore(app), SetupEval(app), SetupBudget(app),
+                                 SetupBound(app)};
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

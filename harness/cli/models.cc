@@ -39,16 +39,18 @@ Runner SetupModels(CLI::App& app) {
       for (const ModelSummary& m : models) {
         out.push_back({{"name", m.name}, {"digest", ToHex(m.digest)}, {"fit_entry", m.fit_entry},
                        {"learner", m.learner}, {"rows_read", m.rows}, {"candidates_compared", m.candidates},
-                       {"steps", m.parents.size() + 1}, {"tainted", m.tainted}});
+                       {"steps", m.parents.size() + 1}, {"tainted", m.tainted},
+                       {"contaminated", m.contaminated}, {"holdout_answers", m.holdout_answers}});
       }
       fmt::print("{}\n", out.dump());
       return Status::OK();
     }
-    fmt::print("{:<20} {:<16} {:<10} {:>9} {:>10} {:<8}\n", "model", "digest", "learner", "rows read",
-               "candidates", "taint");
+    fmt::print("{:<20} {:<16} {:<10} {:>9} {:>10} {:>8} {:<12}\n", "model", "digest", "learner", "rows read",
+               "candidates", "holdout", "taint");
     for (const ModelSummary& m : models) {
-      fmt::print("{:<20} {:<16} {:<10} {:>9} {:>10} {:<8}\n", m.name, ToHex(m.digest).substr(0, 16),
-                 m.learner, m.rows, m.candidates, m.tainted ? "TAINTED" : "clean");
+      fmt::print("{:<20} {:<16} {:<10} {:>9} {:>10} {:>8} {:<12}\n", m.name, ToHex(m.digest).substr(0, 16),
+                 m.learner, m.rows, m.candidates, m.holdout_answers,
+                 m.contaminated ? "CONTAMINATED" : (m.tainted ? "TAINTED" : "clean"));
     }
     return Status::OK();
   };

@@ -80,6 +80,14 @@ Result<LedgerState> ReadLedgerState(const Ledger& ledger) {
     } else if (e.kind == "seal") {
       UNSEEN_ASSIGN_OR_RETURN(SealInfo seal, SealFromJson(e));
       st.seal = std::move(seal);
+    } else if (e.kind == "budget" && st.seal) {
+      try {
+        json b = json::parse(e.body);
+        st.seal->budget_queries += b.at("add_queries").get<uint64_t>();
+        ++st.budget_raises;
+      } catch (const std::exception&) {
+        return Status::Corruption("entry " + std::to_string(e.seq) + " (budget) is malformed");
+      }
     } else if (e.kind == "eval") {
       try {
         st.holdout_queries += json::parse(e.body).value("queries_spent", uint64_t{0});

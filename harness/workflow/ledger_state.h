@@ -29,7 +29,7 @@ struct SealInfo {
   uint64_t holdout_rows = 0, dev_rows = 0;
   Digest256 holdout_set{}, dev_set{}, sealed_rows{}, holdout_feature_digests{};
   KeyInfo key;
-  uint64_t budget_queries = 0;
+  uint64_t budget_queries = 0;  // set at seal, plus every `budget` entry's raise
   std::string dev_out_path;  // where seal wrote the development rows
 };
 
@@ -40,7 +40,8 @@ struct LedgerState {
   std::string source_abs_path;
   Digest256 row_digests{}, content_digests{};
   std::optional<SealInfo> seal;
-  uint64_t holdout_queries = 0;
+  uint64_t holdout_queries = 0;  // the queries_spent of every eval entry
+  uint64_t budget_raises = 0;    // `budget` entries
   int64_t entries = 0;
   Digest256 head{};
 };

@@ -32,6 +32,21 @@ Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger) {
       return Status::Corruption("entry " + std::to_string(e.seq) + " (fit) is malformed: " + ex.what());
     }
   }
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> evals, ledger.EntriesOfKind("eval"));
+  for (const Entry& e : evals) {
+    try {
+      const json body = json::parse(e.body);
+      for (const json& a : body.at("answers")) {
+        for (ModelSummary& m : out) {
+          if (a.at("model_digest").get<std::string>() != ToHex(m.digest)) continue;
+          ++m.holdout_answers;
+          if (a.at("contaminated").get<bool>()) m.contaminated = true;
+        }
+      }
+    } catch (const std::exception& ex) {
+      return Status::Corruption("entry " + std::to_string(e.seq) + " (eval) is malformed: " + ex.what());
+    }
+  }
   return out;
 }
 

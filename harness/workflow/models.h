@@ -22,6 +22,9 @@ struct ModelSummary {
   uint64_t candidates = 0;
   std::vector<int64_t> parents;
   bool tainted = false;
+  // Scored on the holdout under --accept-contamination: marked for good.
+  bool contaminated = false;
+  uint64_t holdout_answers = 0;  // eval answers given for this model (repeats included)
 };
 
 Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger);

@@ -1,0 +1,68 @@
+// The evaluation guard: the only object that ever holds decrypted holdout
+// rows. It opens the sealed holdout in memory (never on disk), checks every
+// row against the digests committed at seal time, and answers questions
+// about models only with metric samples: neither rows nor predictions leave
+// it. Thread-compatible; its methods are const and may be called in turn.
+#ifndef UNSEEN_HARNESS_EVALUATE_GUARD_H_
+#define UNSEEN_HARNESS_EVALUATE_GUARD_H_
+
+#include <Eigen/Dense>
+#include <chrono>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "harness/evaluate/metric_bound.h"
+#include "harness/pipeline/frame.h"
+#include "harness/workflow/ledger_state.h"
+#include "storage/ledger.h"
+#include "storage/seal_crypto.h"
+
+namespace unseen {
+
+// A predictor outside the tool: a command run through /bin/sh -c that reads
+// the holdout's feature columns as CSV on stdin (first column `unseen_token`,
+// opaque tokens, rows shuffled; no target, no id) and writes
+// `token,prediction` lines (a header line is allowed) on stdout.
+struct ExternalPredictor {
+  std::string command;
+  std::chrono::milliseconds timeout{60000};
+  uint64_t shuffle_seed = 0;  // fresh per run, from the ledger's random source
+};
+
+class HoldoutGuard {
+ public:
+  // Decrypts and checks the sealed holdout of `state` with `key` (already
+  // checked against the seal's key check value). Corruption when the blob
+  // fails authentication with the right key or a row differs from its row
+  // digest; FailedPrecondition before seal.
+  static Result<std::unique_ptr<HoldoutGuard>> Open(const Ledger& ledger, const LedgerState& state,
+                                                    const Key& key);
+
+  uint64_t rows() const { return static_cast<uint64_t>(target_.size()); }
+
+  // Applies a frozen pipeline (the `pipeline` object of a model's JSON) to
+  // the holdout and reduces its predictions to `metric`'s sample.
+  // InvalidArgument when the model cannot be applied (missing columns) or
+  // the metric does not fit its predictions.
+  Result<MetricSample> EvaluatePipeline(const nlohmann::json& pipeline, Metric metric,
+                                        const RangeOptions& range) const;
+
+  // Runs an external predictor on the holdout features and samples its
+  // predictions. InvalidArgument (nothing revealed) for a command that
+  // fails, times out, or answers with a wrong row count, an unknown or
+  // repeated token, or a prediction that is not a number / not a class.
+  Result<MetricSample> EvaluateExternal(const ExternalPredictor& predictor, Metric metric,
+                                        const RangeOptions& range) const;
+
+ private:
+  HoldoutGuard() = default;
+  SourceInfo source_;
+  Frame features_;
+  Eigen::VectorXd target_;
+};
+
+}  // namespace unseen
+
+#endif  // UNSEEN_HARNESS_EVALUATE_GUARD_H_

@@ -1,0 +1,43 @@
+#include "harness/workflow/budget.h"
+
+#include <nlohmann/json.hpp>
+
+#include "harness/workflow/ledger_state.h"
+#include "storage/ledger.h"
+
+namespace unseen {
+
+Result<BudgetReport> RaiseBudget(const BudgetRequest& req) {
+  if (req.add_queries == 0) return Status::InvalidArgument("--raise: expected at least 1 query");
+  if (req.reason.empty()) {
+    return Status::InvalidArgument(
+        "--reason: expected a reason for raising the budget (it is shown in every report)");
+  }
+  UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
+  UNSEEN_RETURN_IF_ERROR(ledger->Begin());
+  UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
+  if (!st.seal)
+    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
+  const uint64_t before = st.seal->budget_queries;
+  if (req.add_queries > (uint64_t{1} << 53) - before) {
+    return Status::InvalidArgument("--raise: the budget would pass 2^53 queries");
+  }
+  BudgetReport report;
+  report.budget = before + req.add_queries;
+  report.used = st.holdout_queries;
+  nlohmann::json fields = {
+      {"add_queries", req.add_queries},
+      {"budget_before", before},
+      {"budget_after", report.budget},
+      {"queries_used", st.holdout_queries},
+      {"reason", req.reason},
+      {"parents", {st.seal->entry_seq}},
+      {"summary", "raised the holdout budget from " + std::to_string(before) + " to " +
+                      std::to_string(report.budget) + " queries: " + req.reason}};
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("budget", req.actor, fields.dump()));
+  UNSEEN_RETURN_IF_ERROR(ledger->Commit());
+  report.head = e.hash;
+  return report;
+}
+
+}  // namespace unseen

@@ -1,0 +1,486 @@
+// eval and budget through the binary: estimates checked against the frozen
+// model applied independently to the holdout rows, the adaptivity count read
+// from the ledger, repeats, the budget, every refusal of the guard, external
+// predictors and their failures.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <nlohmann/json.hpp>
+#include <set>
+#include <sstream>
+#include <string>
+
+#include "harness/bounds.h"
+#include "harness/pipeline/pipeline.h"
+#include "harness/workflow/models.h"
+#include "storage/ledger.h"
+#include "tests/testing/sample_data.h"
+#include "tests/testing/testing.h"
+
+namespace unseen {
+namespace {
+
+using json = nlohmann::json;
+using testing::ReadFile;
+using testing::RunResult;
+using testing::RunUnseen;
+using testing::ShellQuote;
+using testing::TempDir;
+using testing::WriteFile;
+
+constexpr const char* kSpec = R"(
+[learner]
+kind = "logistic"
+l2 = 1.0
+)";
+
+class EvalTest : public ::testing::Test {
+ protected:
+  void SetUp() override { Seal(""); }
+  void Seal(const std::string& extra) {
+    WriteFile(dir_.File("d.csv"), testing::SampleCsv(400, 20, 6));
+    WriteFile(dir_.File("spec.toml"), kSpec);
+    ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
+    ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
+                        " --target label --id id --group site --time day")
+                  .exit_code,
+              0);
+    RunResult seal = RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                               " --strategy random --fraction 0.25 --seed 1 --dev-out " +
+                               Q("dev.csv") + " " + extra);
+    ASSERT_EQ(seal.exit_code, 0) << seal.err;
+  }
+  std::string Q(const std::string& name) { return ShellQuote(dir_.File(name)); }
+  void Fit(const std::string& name, const std::string& spec = kSpec) {
+    WriteFile(dir_.File(name + ".toml"), spec);
+    RunResult r =
+        RunUnseen("fit --ledger " + Q("l") + " --spec " + Q(name + ".toml") + " --name " + name);
+    ASSERT_EQ(r.exit_code, 0) << r.err;
+  }
+  RunResult Eval(const std::string& args) {
+    return RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") + " " + args);
+  }
+  json History() { return json::parse(RunUnseen("history --json --ledger " + Q("l")).out); }
+  json Status() { return json::parse(RunUnseen("status --json --ledger " + Q("l")).out); }
+  size_t Count(const std::string& kind) {
+    size_t n = 0;
+    for (const json& e : History()) n += e.at("kind") == kind;
+    return n;
+  }
+  // The holdout rows, rebuilt from the source and the dev file.
+  std::vector<std::vector<std::string>> HoldoutRows() {
+    std::set<std::string> dev;
+    std::istringstream devin(ReadFile(dir_.File("dev.csv")));
+    std::string line;
+    while (std::getline(devin, line)) dev.insert(line.substr(0, line.find(',')));
+    std::istringstream in(ReadFile(dir_.File("d.csv")));
+    std::getline(in, line);
+    std::vector<std::vector<std::string>> rows;
+    while (std::getline(in, line)) {
+      if (dev.count(line.substr(0, line.find(',')))) continue;
+      std::vector<std::string> f;
+      std::istringstream cells(line);
+      std::string c;
+      while (std::getline(cells, c, ',')) f.push_back(c);
+      rows.push_back(f);
+    }
+    return rows;
+  }
+  // The errors of model `name` on the holdout, computed outside the guard:
+  // the frozen pipeline applied to the rebuilt holdout rows.
+  std::pair<uint64_t, uint64_t> HoldoutErrors(const std::string& name) {
+    auto ledger = Ledger::Open(dir_.File("l"), LedgerMode::kReadOnly);
+    EXPECT_TRUE(ledger.ok());
+    auto model = LoadModel(**ledger, name, nullptr);
+    EXPECT_TRUE(model.ok());
+    auto pipeline = FittedPipeline::FromJson(model->at("pipeline"));
+    EXPECT_TRUE(pipeline.ok());
+    auto rows = HoldoutRows();
+    Frame x;
+    x.columns = {FrameColumn{"a", true, {}, {}}, FrameColumn{"b", true, {}, {}}};
+    std::vector<std::string> classes = model->at("target").at("classes");
+    for (const auto& r : rows) {
+      x.columns[0].num.push_back(std::stod(r[3]));
+      x.columns[1].num.push_back(std::stod(r[4]));
+    }
+    auto p = pipeline->Predict(x);
+    EXPECT_TRUE(p.ok());
+    uint64_t errors = 0;
+    for (size_t i = 0; i < rows.size(); ++i) {
+      errors += classes[static_cast<size_t>(p->value(static_cast<Eigen::Index>(i)))] != rows[i][5];
+    }
+    return {errors, rows.size()};
+  }
+  TempDir dir_;
+};
+
+TEST_F(EvalTest, BatchReportsEachModelWithItsEstimateAndBound) {
+  Fit("alpha");
+  Fit("beta", "[learner]\nkind = \"knn\"\nk = 7\n");
+  RunResult r = Eval("alpha beta");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json out = json::parse(r.out);
+  ASSERT_EQ(out["answers"].size(), 2u);
+  EXPECT_EQ(out["queries_spent"], 2);
+  for (const json& a : out["answers"]) {
+    for (const char* key :
+         {"model", "metric", "estimate", "lower", "upper", "method", "delta", "n", "queries"}) {
+      EXPECT_TRUE(a.contains(key)) << key;
+    }
+    EXPECT_EQ(a["metric"], "error_rate");
+    EXPECT_EQ(a["method"], "clopper-pearson");
+    EXPECT_EQ(a["n"], Status()["holdout_rows"]);
+    EXPECT_EQ(a["queries"], 2);
+    // A batch frozen before any reveal costs only its size: H = 2.
+    EXPECT_NEAR(a["log_hypotheses"].get<double>(), std::log(2.0), 1e-12);
+    EXPECT_EQ(a["reveals_before_freeze"], 0);
+    auto [errors, n] = HoldoutErrors(a["model"]);
+    ASSERT_EQ(n, a["n"].get<uint64_t>());
+    // The shown estimate is the error rate on the reveal grid (step 0.001).
+    EXPECT_NEAR(a["estimate"].get<double>(), std::round(1000.0 * errors / n) / 1000, 1e-12);
+    // The interval: Clopper–Pearson at delta/2 per model, rounded outwards.
+    BoundRequest b;
+    b.method = BoundMethod::kClopperPearson;
+    b.n = n;
+    b.successes = errors;
+    b.mean = static_cast<double>(errors) / n;
+    b.log_hypotheses = std::log(2.0);
+    auto want = ComputeBound(b);
+    ASSERT_TRUE(want.ok());
+    EXPECT_LE(a["lower"].get<double>(), want->lower);
+    EXPECT_GT(a["lower"].get<double>(), want->lower - 0.001);
+    EXPECT_GE(a["upper"].get<double>(), want->upper);
+    EXPECT_LT(a["upper"].get<double>(), want->upper + 0.001);
+  }
+  EXPECT_EQ(Status()["holdout_queries"], 2);
+  EXPECT_EQ(Count("eval"), 1u);
+}
+
+TEST_F(EvalTest, TextOutputNamesTheCaution) {
+  Fit("alpha");
+  RunResult r = RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("k") + " alpha");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_NE(r.out.find("alpha"), std::string::npos);
+  EXPECT_NE(r.out.find("independent sample of the population"), std::string::npos);
+  EXPECT_NE(r.out.find("Holdout queries: 1 of 100 used"), std::string::npos);
+}
+
+TEST_F(EvalTest, RepeatedQueryIsAnsweredFromTheLedgerWithoutBudgetOrKey) {
+  Fit("alpha");
+  json first = json::parse(Eval("alpha").out)["answers"][0];
+  RunResult again = RunUnseen("eval --json --ledger " + Q("l") + " alpha");  // no key needed
+  ASSERT_EQ(again.exit_code, 0) << again.err;
+  json second = json::parse(again.out);
+  EXPECT_EQ(second["queries_spent"], 0);
+  EXPECT_EQ(second["answers"][0]["repeated"], true);
+  EXPECT_EQ(second["answers"][0]["estimate"], first["estimate"]);
+  EXPECT_EQ(second["answers"][0]["lower"], first["lower"]);
+  EXPECT_EQ(Status()["holdout_queries"], 1);
+  // A different metric is a new question.
+  json third = json::parse(Eval("alpha --metric accuracy").out);
+  EXPECT_EQ(third["queries_spent"], 1);
+  EXPECT_NEAR(third["answers"][0]["estimate"].get<double>(), 1 - first["estimate"].get<double>(),
+              1e-9);
+}
+
+TEST_F(EvalTest, ModelFrozenAfterARevealCountsEveryAnswerItCouldHaveUsed) {
+  Fit("alpha");
+  json first = json::parse(Eval("alpha").out)["answers"][0];
+  const double n = first["n"];
+  Fit("gamma", "[learner]\nkind = \"logistic\"\nl2 = 5.0\n");
+  json second = json::parse(Eval("gamma").out)["answers"][0];
+  EXPECT_EQ(second["reveals_before_freeze"], 1);
+  // alpha: frozen before any reveal (weight 1); gamma: after one
+  // Clopper–Pearson answer, which is a function of k in 0..n (n+1 values).
+  EXPECT_NEAR(second["log_hypotheses"].get<double>(), std::log(1.0 + (n + 1)), 1e-9);
+  EXPECT_EQ(second["queries"], 2);
+}
+
+TEST_F(EvalTest, BudgetIsEnforcedAndRaisingItIsAnEntry) {
+  // A fresh ledger sealed with a budget of one query.
+  TempDir other;
+  WriteFile(other.File("d.csv"), testing::SampleCsv(200, 10, 3));
+  std::string L = ShellQuote(other.File("l"));
+  ASSERT_EQ(RunUnseen("init --ledger " + L + " --data " + ShellQuote(other.File("d.csv")) +
+                      " --target label --id id --group site --time day")
+                .exit_code,
+            0);
+  ASSERT_EQ(RunUnseen("seal --ledger " + L + " --key-file " + Q("k") +
+                      " --strategy random --fraction 0.3 "
+                      "--seed 4 --budget 1 --dev-out " +
+                      ShellQuote(other.File("dev.csv")))
+                .exit_code,
+            0);
+  WriteFile(other.File("s.toml"), "[learner]\nkind = \"knn\"\n");
+  for (const char* name : {"m1", "m2"}) {
+    ASSERT_EQ(RunUnseen("fit --ledger " + L + " --spec " + ShellQuote(other.File("s.toml")) +
+                        " --name " + name)
+                  .exit_code,
+              0);
+  }
+  std::string eval = "eval --json --ledger " + L + " --key-file " + Q("k") + " ";
+  RunResult over = RunUnseen(eval + "m1 m2");
+  EXPECT_EQ(over.exit_code, 1) << over.err;
+  EXPECT_NE(over.err.find("budget is spent"), std::string::npos) << over.err;
+  json hist = json::parse(RunUnseen("history --json --ledger " + L).out);
+  EXPECT_EQ(hist.back()["kind"], "refusal");
+  ASSERT_EQ(RunUnseen(eval + "m1").exit_code, 0);
+  EXPECT_EQ(RunUnseen(eval + "m2").exit_code, 1);
+  RunResult raise =
+      RunUnseen("budget --ledger " + L + " --raise 1 --reason 'second candidate agreed in review'");
+  ASSERT_EQ(raise.exit_code, 0) << raise.err;
+  json st = json::parse(RunUnseen("status --json --ledger " + L).out);
+  EXPECT_EQ(st["budget_queries"], 2);
+  EXPECT_EQ(st["budget_raises"], 1);
+  EXPECT_EQ(RunUnseen(eval + "m2").exit_code, 0);
+  EXPECT_EQ(RunUnseen("budget --ledger " + L + " --raise 0 --reason x").exit_code, 2);
+}
+
+// Appends a forged fit entry (through the library, so the chain stays
+// valid) for a copy of model `from` whose lineage read the holdout.
+void ForgeTaintedModel(const std::string& ledger_path, const std::string& from,
+                       const std::string& name) {
+  auto ledger = Ledger::Open(ledger_path, LedgerMode::kReadWrite);
+  ASSERT_TRUE(ledger.ok());
+  ASSERT_TRUE((*ledger)->Begin().ok());
+  ModelSummary summary;
+  auto model = LoadModel(**ledger, from, &summary);
+  ASSERT_TRUE(model.ok());
+  json fit;
+  auto fits = (*ledger)->EntriesOfKind("fit");
+  ASSERT_TRUE(fits.ok());
+  for (const Entry& e : *fits) {
+    if (e.seq == summary.fit_entry) fit = json::parse(e.body);
+  }
+  auto seal_entry = (*ledger)->LastOfKind("seal");
+  ASSERT_TRUE(seal_entry.ok() && seal_entry->has_value());
+  json seal = json::parse((*seal_entry)->body);
+  (*model)["name"] = name;
+  auto text = CanonicalJson(model->dump());
+  ASSERT_TRUE(text.ok());
+  auto ref = (*ledger)->PutBlob("model", *text);
+  ASSERT_TRUE(ref.ok());
+  json forged = {{"model", name},
+                 {"model_digest", ToHex(ref->digest)},
+                 {"rows_read", seal["holdout"]["row_set"]},
+                 {"parents", fit["parents"]},
+                 {"learner", "logistic"},
+                 {"rows", 1},
+                 {"tainted", false}};
+  ASSERT_TRUE((*ledger)->Append("fit", "test", forged.dump(), {*ref}).ok());
+  ASSERT_TRUE((*ledger)->Commit().ok());
+}
+
+TEST_F(EvalTest, ModelWhoseLineageReadTheHoldoutIsRefusedUnlessAccepted) {
+  Fit("alpha");
+  ForgeTaintedModel(dir_.File("l"), "alpha", "peeked");
+  const size_t evals = Count("eval");
+  RunResult r = Eval("peeked");
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("tainted"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("holdout rows"), std::string::npos) << r.err;
+  EXPECT_EQ(History().back()["kind"], "refusal");
+  EXPECT_EQ(Count("eval"), evals);
+  EXPECT_EQ(Status()["holdout_queries"], 0);
+  // A clean model in the same batch does not get through either.
+  EXPECT_EQ(Eval("alpha peeked").exit_code, 1);
+
+  RunResult forced = Eval("peeked --accept-contamination 'audit of a known leak'");
+  ASSERT_EQ(forced.exit_code, 0) << forced.err;
+  json a = json::parse(forced.out)["answers"][0];
+  EXPECT_EQ(a["contaminated"], true);
+  EXPECT_FALSE(a["taints"].empty());
+  json last = History().back();
+  EXPECT_EQ(last["kind"], "eval");
+  EXPECT_EQ(last["body"]["accept_contamination"], "audit of a known leak");
+  EXPECT_EQ(last["body"]["answers"][0]["contaminated"], true);
+  // Every later listing shows it.
+  json models = json::parse(RunUnseen("models --json --ledger " + Q("l")).out);
+  for (const json& m : models) EXPECT_EQ(m["contaminated"], m["name"] == "peeked") << m["name"];
+  EXPECT_NE(RunUnseen("models --ledger " + Q("l")).out.find("CONTAMINATED"), std::string::npos);
+}
+
+TEST_F(EvalTest, ModelFromAnotherSourceIsRefused) {
+  Fit("alpha");
+  auto ledger = Ledger::Open(dir_.File("l"), LedgerMode::kReadWrite);
+  ASSERT_TRUE(ledger.ok());
+  ASSERT_TRUE((*ledger)->Begin().ok());
+  ModelSummary summary;
+  auto model = LoadModel(**ledger, "alpha", &summary);
+  ASSERT_TRUE(model.ok());
+  (*model)["source_sha256"] = std::string(64, 'a');
+  auto ref = (*ledger)->PutBlob("model", *CanonicalJson(model->dump()));
+  ASSERT_TRUE(ref.ok());
+  json forged = {
+      {"model", "moved"}, {"model_digest", ToHex(ref->digest)}, {"parents", json::array()}};
+  ASSERT_TRUE((*ledger)->Append("fit", "test", forged.dump(), {*ref}).ok());
+  ASSERT_TRUE((*ledger)->Commit().ok());
+  ledger->reset();
+  RunResult r = Eval("moved");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.err.find("file digest"), std::string::npos) << r.err;
+}
+
+TEST_F(EvalTest, BadOptionsAndWrongKeyAreExitTwoAndLeaveTheLedgerAlone) {
+  Fit("alpha");
+  ASSERT_EQ(RunUnseen("keygen --out " + Q("other")).exit_code, 0);
+  const std::string before = ReadFile(dir_.File("l"));
+  struct Case {
+    std::string args, message;
+  } cases[] = {
+      {"nosuch", "no frozen model named 'nosuch'"},
+      {"alpha --metric mse", "--metric"},
+      {"alpha --metric rmse", "--metric"},
+      {"alpha --delta 1.5", "--delta"},
+      {"alpha --method mcdiarmid", "mcdiarmid"},
+      {"alpha --metric brier --method clopper-pearson", "clopper-pearson"},
+      {"alpha alpha", "named twice"},
+  };
+  for (const Case& c : cases) {
+    RunResult r = Eval(c.args);
+    EXPECT_EQ(r.exit_code, 2) << c.args << ": " << r.err;
+    EXPECT_NE(r.err.find(c.message), std::string::npos) << c.args << ": " << r.err;
+  }
+  RunResult wrong = RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("other") + " alpha");
+  EXPECT_EQ(wrong.exit_code, 2) << wrong.err;
+  EXPECT_EQ(ReadFile(dir_.File("l")), before);
+}
+
+TEST_F(EvalTest, EveryMetricGivesAnIntervalInsideItsRange) {
+  Fit("alpha");
+  for (const char* metric : {"accuracy", "balanced_accuracy", "log_loss", "brier", "auc"}) {
+    RunResult r = Eval(std::string("alpha --metric ") + metric);
+    ASSERT_EQ(r.exit_code, 0) << metric << ": " << r.err;
+    json a = json::parse(r.out)["answers"][0];
+    EXPECT_LE(a["range"][0].get<double>(), a["lower"].get<double>()) << metric;
+    EXPECT_LE(a["lower"].get<double>(), a["estimate"].get<double>()) << metric;
+    EXPECT_LE(a["estimate"].get<double>(), a["upper"].get<double>()) << metric;
+    EXPECT_LE(a["upper"].get<double>(), a["range"][1].get<double>()) << metric;
+  }
+  json ll = json::parse(Eval("alpha --metric log_loss --prob-floor 0.01").out)["answers"][0];
+  EXPECT_NEAR(ll["range"][1].get<double>(), -std::log(0.01), 1e-12);
+  EXPECT_EQ(json::parse(Eval("alpha --metric auc").out)["answers"][0]["method"], "mcdiarmid");
+}
+
+TEST_F(EvalTest, LadderReleasesANewValueOnlyWhenTheBoardMoves) {
+  Fit("alpha");
+  Fit("weak", "[learner]\nkind = \"knn\"\nk = 1\n");
+  RunResult first = Eval("--ladder --ladder-step 0.05 weak");
+  ASSERT_EQ(first.exit_code, 0) << first.err;
+  json a = json::parse(first.out)["answers"][0];
+  EXPECT_EQ(a["mode"], "ladder");
+  EXPECT_EQ(a["method"], "ladder");
+  EXPECT_EQ(a["improved"], true);
+  EXPECT_EQ(a["leader"], "weak");
+  auto [weak_errors, n] = HoldoutErrors("weak");
+  const double weak = std::round(static_cast<double>(weak_errors) / n / 0.05) * 0.05;
+  EXPECT_NEAR(a["estimate"].get<double>(), weak, 1e-12);
+  // The same submission again is a repeat; a second one moves the board
+  // only if it beats it by more than the step.
+  auto [alpha_errors, n2] = HoldoutErrors("alpha");
+  const double alpha = static_cast<double>(alpha_errors) / n2;
+  json b = json::parse(Eval("--ladder --ladder-step 0.05 alpha").out)["answers"][0];
+  const bool moves = alpha < weak - 0.05;
+  EXPECT_EQ(b["improved"], moves);
+  EXPECT_NEAR(b["estimate"].get<double>(), moves ? std::round(alpha / 0.05) * 0.05 : weak, 1e-12);
+  EXPECT_EQ(b["leader"], moves ? "alpha" : "weak");
+  EXPECT_LE(b["lower"].get<double>(), b["estimate"].get<double>());
+  EXPECT_EQ(Eval("--ladder --ladder-step 0.1 alpha").exit_code, 2);  // the step is fixed
+  EXPECT_EQ(Eval("--ladder alpha --metric accuracy").exit_code, 2);  // not a loss
+}
+
+// External predictors: a shell command reading the holdout features.
+class ExternalEvalTest : public EvalTest {
+ protected:
+  RunResult External(const std::string& script, const std::string& extra = "") {
+    WriteFile(dir_.File("p.sh"), script);
+    return Eval("--name ext --command " + ShellQuote("sh " + dir_.File("p.sh")) + " " + extra);
+  }
+};
+
+TEST_F(ExternalEvalTest, PredictorSeesTokensAndFeaturesOnlyAndIsScored) {
+  // Predicts class "yes" for every row and records what it was shown.
+  RunResult r =
+      External("tee " + ShellQuote(dir_.File("seen.csv")) +
+               " | awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json a = json::parse(r.out)["answers"][0];
+  EXPECT_EQ(a["kind"], "external");
+  uint64_t no = 0;
+  auto rows = HoldoutRows();
+  for (const auto& row : rows) no += row[5] != "yes";
+  EXPECT_NEAR(a["estimate"].get<double>(), std::round(1000.0 * no / rows.size()) / 1000, 1e-12);
+  std::string seen = ReadFile(dir_.File("seen.csv"));
+  EXPECT_EQ(seen.substr(0, seen.find('\n')), "unseen_token,a,b");
+  for (const auto& row : rows) EXPECT_EQ(seen.find(row[0] + ","), std::string::npos);  // no ids
+  EXPECT_EQ(Status()["holdout_queries"], 1);
+}
+
+TEST_F(ExternalEvalTest, FailedPredictorsRevealNothingAndSpendNothing) {
+  const std::string before = ReadFile(dir_.File("l"));
+  struct Case {
+    std::string script, extra, message;
+  } cases[] = {
+      {"cat >/dev/null; echo boom >&2; exit 3\n", "", "exited with status 3: boom"},
+      {"cat >/dev/null; sleep 5\n", "--timeout 0.3", "did not finish"},
+      {"awk -F, 'NR==1{print \"token,prediction\"; next} NR<5{print $1\",yes\"}'\n", "",
+       "expected"},
+      {"cat >/dev/null; printf 'token,prediction\\nbogus,yes\\n'\n", "", "unknown token"},
+      {"awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",maybe\"}'\n", "",
+       "not one of the classes"},
+      {"awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"; print $1\",yes\"}'\n",
+       "", "answered twice"},
+  };
+  for (const Case& c : cases) {
+    RunResult r = External(c.script, c.extra);
+    EXPECT_EQ(r.exit_code, 2) << c.script << r.err;
+    EXPECT_NE(r.err.find(c.message), std::string::npos) << c.script << r.err;
+  }
+  EXPECT_EQ(ReadFile(dir_.File("l")), before);
+}
+
+TEST_F(ExternalEvalTest, AttachedCopyOfTheHoldoutIsRefused) {
+  std::string copy = "id,site,day,a,b,label\n";
+  int i = 0;
+  for (const auto& row : HoldoutRows()) {
+    copy += "c" + std::to_string(i++) + "," + row[1] + "," + row[2] + "," + row[3] + "," + row[4] +
+            "," + row[5] + "\n";
+  }
+  WriteFile(dir_.File("weights.csv"), copy);
+  RunResult r = External("cat >/dev/null\n", "--attach " + Q("weights.csv"));
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("holdout rows"), std::string::npos) << r.err;
+  EXPECT_EQ(History().back()["kind"], "refusal");
+}
+
+TEST(BoundCommandTest, ClopperPearsonMatchesScipy) {
+  // scipy 1.10.1: beta.ppf(0.05/3/2, 243, 683) and beta.isf(0.05/3/2, 244, 682).
+  RunResult r = RunUnseen("bound --json --n 925 --errors 243 --models 3 --delta 0.05");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json b = json::parse(r.out);
+  EXPECT_NEAR(b["lower"].get<double>(), 0.2286620623188258, 1e-9);
+  EXPECT_NEAR(b["upper"].get<double>(), 0.29891512954472643, 1e-9);
+  EXPECT_EQ(b["method"], "clopper-pearson");
+  EXPECT_EQ(b["queries"], 3);
+  EXPECT_EQ(b["n"], 925);
+}
+
+TEST(BoundCommandTest, HoeffdingMatchesItsClosedFormAndCountsReveals) {
+  // sqrt(ln(2 * 5 / 0.05) / (2 * 400)) = 0.08138118153593646 (closed form, Python math).
+  RunResult r = RunUnseen("bound --json --n 400 --mean 0.3 --models 5 --delta 0.05");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json b = json::parse(r.out);
+  EXPECT_NEAR(b["lower"].get<double>(), 0.3 - 0.08138118153593646, 1e-12);
+  EXPECT_NEAR(b["upper"].get<double>(), 0.3 + 0.08138118153593646, 1e-12);
+  // Two of the five frozen after 1 and 2 reveals of 11 values: H = 3 + 11 + 121.
+  json adaptive = json::parse(
+      RunUnseen(
+          "bound --json --n 400 --mean 0.3 --models 5 --reveals 0,0,0,1,2 --resolution-values 11")
+          .out);
+  EXPECT_NEAR(adaptive["log_hypotheses"].get<double>(), std::log(135.0), 1e-12);
+  EXPECT_EQ(RunUnseen("bound --n 10 --errors 11").exit_code, 2);
+  EXPECT_EQ(RunUnseen("bound --n 10 --mean 0.5 --models 2 --reveals 1,2,3").exit_code, 2);
+}
+
+}  // namespace
+}  // namespace unseen
