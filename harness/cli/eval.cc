@@ -70,7 +70,8 @@ nlohmann::json AnswerJson(const EvalAnswer& a) {
           {"mode", a.mode},
           {"improved", a.improved},
           {"leader", a.leader},
-          {"ladder_step", a.ladder_step}};
+          {"ladder_step", a.ladder_step},
+          {"tau", a.tau}};
 }
 
 void PrintText(const EvalReport& r) {
@@ -142,6 +143,13 @@ Runner SetupEval(CLI::App& app) {
                 "Answer as a Ladder leaderboard: a new value only when a submission beats the "
                 "board by a step");
   cmd->add_option("--ladder-step", opt->ladder_step, "The Ladder's step in the metric's units");
+  cmd->add_flag("--thresholdout", opt->req.thresholdout,
+                "Answer through Thresholdout: the training-rows loss unless the holdout disagrees");
+  cmd->add_option("--thresholdout-budget", opt->req.thresholdout_budget,
+                  "Thresholdout's B: answers that may use the holdout")
+      ->capture_default_str();
+  cmd->add_option("--train-data", opt->req.train_data,
+                  "Thresholdout: the models' training rows (default: the dev file)");
   cmd->add_option("--command", opt->external.command,
                   "An external predictor: a shell command reading holdout features on stdin");
   cmd->add_option("--attach", opt->external.attach,

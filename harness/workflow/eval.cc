@@ -11,12 +11,15 @@
 #include "harness/evaluate/guard.h"
 #include "harness/evaluate/ladder.h"
 #include "harness/evaluate/metric_bound.h"
+#include "harness/evaluate/thresholdout.h"
+#include "harness/pipeline/pipeline.h"
 #include "harness/workflow/dataset.h"
 #include "harness/workflow/fit.h"
 #include "harness/workflow/ledger_state.h"
 #include "harness/workflow/lineage.h"
 #include "harness/workflow/models.h"
 #include "storage/seal_crypto.h"
+#include "storage/sealed_blob.h"
 
 namespace unseen {
 
@@ -193,7 +196,40 @@ json AnswerJson(const EvalAnswer& a) {
               {"mode", a.mode},
               {"improved", a.improved},
               {"leader", a.leader},
-              {"ladder_step", a.ladder_step}};
+              {"ladder_step", a.ladder_step},
+              {"tau", a.tau}};
+}
+
+// A uniform draw in (0, 1) from the operating system's random source: the
+// noise of Thresholdout must not be predictable from the ledger.
+Result<double> UniformDraw() {
+  UNSEEN_ASSIGN_OR_RETURN(std::string bytes, RandomBytes(8));
+  uint64_t x = 0;
+  std::memcpy(&x, bytes.data(), 8);
+  return (static_cast<double>(x >> 11) + 0.5) * 0x1.0p-53;
+}
+
+// A model's mean loss on its training rows, on the [0, 1] scale of the
+// metric's range: the "training set" value Thresholdout compares with.
+// `data` is loaded on first use and kept for the next model.
+Result<double> TrainingMean(const Ledger& ledger, const LedgerState& st, const EvalRequest& req,
+                            const Query& q, const MetricSetup& setup,
+                            std::optional<LoadedData>* data) {
+  if (!*data) {
+    const std::string path = req.train_data.empty() ? st.seal->dev_out_path : req.train_data;
+    DataRefusal refusal;
+    auto loaded = LoadData(ledger, st, path, DataPurpose::kDevRows, &refusal);
+    if (!loaded.ok()) {
+      return Status::InvalidArgument("--train-data " + path + ": " + loaded.status().message());
+    }
+    *data = std::move(*loaded);
+  }
+  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline fitted, FittedPipeline::FromJson(q.model.at("pipeline")));
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, fitted.Predict((*data)->features));
+  UNSEEN_ASSIGN_OR_RETURN(
+      MetricSample s, SampleMetric(setup.metric, (*data)->target, p,
+                                   static_cast<int>(st.source.target.classes.size()), setup.range));
+  return (s.mean - s.range_lo) / (s.range_hi - s.range_lo);
 }
 
 Status Refuse(const EvalRequest& req, const std::string& why, const json& details) {
@@ -215,7 +251,23 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
     return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
   UNSEEN_ASSIGN_OR_RETURN(MetricSetup setup, SetUpMetric(req, st));
   const std::string metric_name = MetricName(setup.metric);
-  const std::string method_name = req.ladder ? "ladder" : BoundMethodName(setup.method);
+  const std::string method_name =
+      req.ladder ? "ladder" : (req.thresholdout ? "thresholdout" : BoundMethodName(setup.method));
+  if (req.ladder && req.thresholdout) {
+    return Status::InvalidArgument("--ladder and --thresholdout exclude each other");
+  }
+  if (req.thresholdout &&
+      (setup.metric == Metric::kAuc || setup.metric == Metric::kBalancedAccuracy)) {
+    return Status::InvalidArgument(
+        "--thresholdout: metric " + std::string(MetricName(setup.metric)) +
+        " is not a mean over rows; expected error_rate, accuracy, brier, "
+        "log_loss, mse or mae");
+  }
+  if (req.thresholdout && req.external) {
+    return Status::InvalidArgument(
+        "--thresholdout needs each model's loss on its training rows; "
+        "external predictors have none here");
+  }
   if (req.ladder && !LowerIsBetter(setup.metric)) {
     return Status::InvalidArgument(
         "--ladder: metric " + metric_name +
@@ -338,6 +390,54 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
     }
   }
 
+  // Thresholdout: its settings (fixed at its first answer) and secret state.
+  ThresholdoutParams tho;
+  ThresholdoutState tho_state;
+  bool tho_started = false;
+  std::optional<Key> key;
+  const std::string tho_aad = "unseen/thresholdout/" + st.ledger_id;
+  if (req.thresholdout && new_queries > 0) {
+    if (!req.key)
+      return Status::InvalidArgument("--key-file: the seal key is needed to read the holdout");
+    UNSEEN_ASSIGN_OR_RETURN(key, KeyForSeal(*req.key, *st.seal, st.ledger_id));
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> evals, ledger->EntriesOfKind("eval"));
+    for (const Entry& e : evals) {
+      json b = json::parse(e.body);
+      if (!b.contains("thresholdout") || b["thresholdout"].is_null()) continue;
+      const json& t = b["thresholdout"];
+      tho.tau = t.at("tau");
+      tho.threshold = t.at("threshold");
+      tho.sigma = t.at("sigma");
+      tho.m = t.at("m");
+      tho.budget = t.at("budget");
+      tho.beta = t.at("beta");
+      UNSEEN_ASSIGN_OR_RETURN(Digest256 d, Digest256FromHex(t.at("state").get<std::string>()));
+      UNSEEN_ASSIGN_OR_RETURN(std::string blob, ledger->GetBlob(d));
+      UNSEEN_ASSIGN_OR_RETURN(std::string plain, OpenSealed(*key, tho_aad, blob));
+      json sj = json::parse(plain);
+      tho_state.noisy_threshold = sj.at("noisy_threshold");
+      tho_state.budget_left = sj.at("budget_left");
+      tho_started = true;
+    }
+    if (!tho_started) {
+      UNSEEN_ASSIGN_OR_RETURN(tho, ThresholdoutForHoldout(st.seal->holdout_rows, report.budget,
+                                                          req.thresholdout_budget, req.delta));
+      UNSEEN_ASSIGN_OR_RETURN(double u, UniformDraw());
+      tho_state.noisy_threshold = tho.threshold + Laplace(u, 2 * tho.sigma);
+      tho_state.budget_left = tho.budget;
+    } else if (tho.beta != req.delta) {
+      return Status::InvalidArgument("--delta: thresholdout runs at delta " +
+                                     std::to_string(tho.beta) + "; expected the same delta");
+    }
+    if (tho_state.budget_left < new_queries && tho_state.budget_left == 0) {
+      ledger->Rollback();
+      return Refuse(req,
+                    "thresholdout's overfitting budget (B = " + std::to_string(tho.budget) +
+                        ") is spent; it answers no more queries",
+                    json{{"thresholdout_budget", tho.budget}});
+    }
+  }
+
   // 3. How adaptive each new query may be: the reveals before its freeze.
   std::vector<double> weights;
   for (const PastAnswer& p : past) {
@@ -360,12 +460,17 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
   if (new_queries > 0) {
     if (!req.key)
       return Status::InvalidArgument("--key-file: the seal key is needed to read the holdout");
-    UNSEEN_ASSIGN_OR_RETURN(Key key, KeyForSeal(*req.key, *st.seal, st.ledger_id));
-    UNSEEN_ASSIGN_OR_RETURN(guard, HoldoutGuard::Open(*ledger, st, key));
+    if (!key) {
+      UNSEEN_ASSIGN_OR_RETURN(key, KeyForSeal(*req.key, *st.seal, st.ledger_id));
+    }
+    UNSEEN_ASSIGN_OR_RETURN(guard, HoldoutGuard::Open(*ledger, st, *key));
   }
 
   // 5. Answers.
   json answers = json::array();
+  std::vector<BlobRef> blobs;
+  std::vector<bool> tho_answers;
+  std::optional<LoadedData> train_rows;
   for (Query& q : queries) {
     EvalAnswer a;
     a.model = q.name;
@@ -397,6 +502,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
       a.improved = b.value("improved", false);
       a.leader = b.value("leader", "");
       a.ladder_step = b.value("ladder_step", 0.0);
+      a.tau = b.value("tau", 0.0);
       a.contaminated = a.contaminated || b.at("contaminated").get<bool>();
       a.assumptions = "answered from entry " + std::to_string(a.repeat_of) +
                       ": the same question was asked before, so nothing new is revealed";
@@ -415,6 +521,59 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
       }
       if (!sample.ok()) {
         return Status::InvalidArgument("model '" + q.name + "': " + sample.status().message());
+      }
+      if (req.thresholdout) {
+        if (tho_state.budget_left == 0) {
+          ledger->Rollback();
+          return Refuse(req,
+                        "thresholdout's overfitting budget (B = " + std::to_string(tho.budget) +
+                            ") ran out in this batch at model '" + q.name + "'",
+                        json{{"thresholdout_budget", tho.budget}});
+        }
+        UNSEEN_ASSIGN_OR_RETURN(double train,
+                                TrainingMean(*ledger, st, req, q, setup, &train_rows));
+        const double w = sample->range_hi - sample->range_lo;
+        const double holdout = (sample->mean - sample->range_lo) / w;
+        double draws[3];
+        for (double& d : draws) {
+          UNSEEN_ASSIGN_OR_RETURN(double u, UniformDraw());
+          d = u;
+        }
+        ThresholdoutAnswer t = ThresholdoutQuery(
+            train, holdout, tho, Laplace(draws[0], 4 * tho.sigma), Laplace(draws[1], tho.sigma),
+            Laplace(draws[2], 2 * tho.sigma), &tho_state);
+        MetricSample shown_sample = *sample;
+        shown_sample.estimate = sample->range_lo + w * t.value;
+        a.mode = "thresholdout";
+        a.tau = tho.tau;
+        a.n = sample->n;
+        a.step = w / static_cast<double>(kRevealGridPoints - 1);
+        a.estimate =
+            RoundToResolution(shown_sample.estimate, a.step, sample->range_lo, sample->range_hi);
+        a.lower = std::fmax(sample->range_lo, a.estimate - w * tho.tau);
+        a.upper = std::fmin(sample->range_hi, a.estimate + w * tho.tau);
+        a.range_lo = sample->range_lo;
+        a.range_hi = sample->range_hi;
+        a.range_source = "metric";
+        a.outside_range = sample->outside_range;
+        a.reveals_before_freeze = q.reveals_before;
+        a.log_weight = q.log_weight;
+        a.log_hypotheses = log_h;
+        a.assumptions =
+            "Thresholdout (Dwork et al. 2015, Theorem 25): with probability at least 1 - delta, "
+            "every answer is within tau = " +
+            std::to_string(tho.tau) +
+            " (on the [0, 1] scale of the metric's range) of the true value while fewer than B = " +
+            std::to_string(tho.budget) +
+            " answers used the holdout, over m = " + std::to_string(tho.m) +
+            " queries from any adaptive analyst; the holdout rows are an independent sample "
+            "of the population the model will meet, and no bound corrects a sampling bias.";
+        json aj = AnswerJson(a);
+        aj["log_values"] = std::log(static_cast<double>(kRevealGridPoints));
+        answers.push_back(aj);
+        report.answers.push_back(std::move(a));
+        tho_answers.push_back(t.used_holdout);
+        continue;
       }
       if (req.ladder) {
         // Algorithm 1 on the loss; the interval is for the leader's true loss.
@@ -494,8 +653,29 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
     external["name"] = req.external->name;
     external["timeout_seconds"] = req.external->timeout_seconds;
   }
+  json thresholdout = nullptr;
+  if (req.thresholdout && new_queries > 0) {
+    // The noisy threshold and the budget left are secret: sealed with the
+    // holdout key, so that the next call (and an auditor with the key) can read them.
+    json state = {{"noisy_threshold", tho_state.noisy_threshold},
+                  {"budget_left", tho_state.budget_left},
+                  {"used_holdout", tho_answers}};
+    UNSEEN_ASSIGN_OR_RETURN(auto writer, SealedWriter::Create(*key, tho_aad));
+    UNSEEN_RETURN_IF_ERROR(writer->Append(state.dump()));
+    UNSEEN_ASSIGN_OR_RETURN(std::string blob, writer->Finish());
+    UNSEEN_ASSIGN_OR_RETURN(BlobRef ref, ledger->PutBlob("thresholdout-state", blob));
+    blobs.push_back(ref);
+    thresholdout = {{"tau", tho.tau},
+                    {"threshold", tho.threshold},
+                    {"sigma", tho.sigma},
+                    {"m", tho.m},
+                    {"budget", tho.budget},
+                    {"beta", tho.beta},
+                    {"state", ToHex(ref.digest)}};
+  }
   json fields = {
       {"answers", answers},
+      {"thresholdout", thresholdout},
       {"external", external},
       {"queries_spent", report.queries_spent},
       {"queries_total", report.queries_total},
@@ -509,7 +689,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
                       std::to_string(report.queries_spent) + " new queries, " +
                       std::to_string(report.queries_total) + " of " +
                       std::to_string(report.budget) + " used)"}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("eval", req.actor, fields.dump()));
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("eval", req.actor, fields.dump(), blobs));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.head = e.hash;
   return report;

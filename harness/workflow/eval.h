@@ -43,6 +43,11 @@ struct EvalRequest {
   // Ladder mode: submissions answered by the Ladder (harness/evaluate/ladder.h).
   bool ladder = false;
   std::optional<double> ladder_step;  // eta in the loss's units; default the C = 1 step
+  // Thresholdout mode: each model's training-rows loss (from train_data, the
+  // dev file by default) is compared with the holdout's (harness/evaluate/thresholdout.h).
+  bool thresholdout = false;
+  uint64_t thresholdout_budget = 10;  // B: answers that may use the holdout
+  std::string train_data;
 };
 
 struct EvalAnswer {
@@ -71,6 +76,7 @@ struct EvalAnswer {
   bool improved = false;
   std::string leader;
   double ladder_step = 0;
+  double tau = 0;  // Thresholdout: the accuracy its guarantee gives
   std::string assumptions;
 };
 

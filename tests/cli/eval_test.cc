@@ -389,6 +389,67 @@ TEST_F(EvalTest, LadderReleasesANewValueOnlyWhenTheBoardMoves) {
   EXPECT_EQ(Eval("--ladder alpha --metric accuracy").exit_code, 2);  // not a loss
 }
 
+TEST_F(EvalTest, ThresholdoutRefusesAHoldoutTooSmallForItsTheorem) {
+  Fit("alpha");
+  const std::string before = ReadFile(dir_.File("l"));
+  RunResult r = Eval("--thresholdout alpha");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.err.find("needs a holdout of at least"), std::string::npos) << r.err;
+  EXPECT_EQ(ReadFile(dir_.File("l")), before);
+}
+
+TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
+  TempDir dir;
+  auto Q = [&](const std::string& f) { return ShellQuote(dir.File(f)); };
+  WriteFile(dir.File("d.csv"), testing::SampleCsv(44000, 20, 9));
+  WriteFile(dir.File("s.toml"), kSpec);
+  ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
+  ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
+                      " --target label --id id --group site --time day")
+                .exit_code,
+            0);
+  ASSERT_EQ(
+      RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                " --strategy random --fraction 0.25 --seed 1 --budget 10 --dev-out " + Q("dev.csv"))
+          .exit_code,
+      0);
+  ASSERT_EQ(
+      RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("s.toml") + " --name alpha").exit_code,
+      0);
+  RunResult r = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                          " --thresholdout --thresholdout-budget 1 alpha");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json a = json::parse(r.out)["answers"][0];
+  EXPECT_EQ(a["method"], "thresholdout");
+  const double tau = a["tau"];
+  EXPECT_GT(tau, 0);
+  EXPECT_LT(tau, 1);
+  // The plain answer on the same holdout: Thresholdout's answer is within tau of it here.
+  json plain = json::parse(
+      RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") + " alpha").out);
+  EXPECT_LT(std::fabs(a["estimate"].get<double>() - plain["answers"][0]["estimate"].get<double>()),
+            tau);
+  json hist = json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
+  json entry;
+  for (const json& e : hist) {
+    if (e["kind"] == "eval" && !e["body"]["thresholdout"].is_null()) entry = e["body"];
+  }
+  ASSERT_FALSE(entry.is_null());
+  EXPECT_FALSE(
+      entry["thresholdout"].contains("noisy_threshold"));  // secret: in the sealed state blob
+  EXPECT_EQ(entry["thresholdout"]["budget"], 1);
+  // A second call reads the sealed state back and keeps the settings.
+  WriteFile(dir.File("s2.toml"), "[learner]\nkind = \"logistic\"\nl2 = 50.0\n");
+  ASSERT_EQ(
+      RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("s2.toml") + " --name beta").exit_code,
+      0);
+  RunResult second = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                               " --thresholdout --thresholdout-budget 1 beta");
+  ASSERT_EQ(second.exit_code, 0) << second.err;
+  EXPECT_EQ(json::parse(second.out)["answers"][0]["tau"], tau);
+  EXPECT_EQ(RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k")).exit_code, 0);
+}
+
 // External predictors: a shell command reading the holdout features.
 class ExternalEvalTest : public EvalTest {
  protected:
