@@ -81,6 +81,10 @@ Runner SetupStatus(CLI::App& app) {
         j["budget_remaining"] = st.seal->budget_queries > st.holdout_queries
                                     ? st.seal->budget_queries - st.holdout_queries : 0;
         j["budget_raises"] = st.budget_raises;
+        if (st.seal->budget_half_width > 0) {
+          j["budget_half_width"] = st.seal->budget_half_width;
+          j["budget_delta"] = st.seal->budget_delta;
+        }
       }
       fmt::print("{}\n", j.dump());
       return Status::OK();

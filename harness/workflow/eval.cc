@@ -454,6 +454,25 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
     weights.push_back(q.log_weight);
   }
   const double log_h = LogHypothesesOfWeights(weights);
+  if (st.seal->budget_half_width > 0 && new_queries > 0) {
+    // Known before any holdout value is read: it depends on n and ln H only.
+    UNSEEN_ASSIGN_OR_RETURN(
+        double eps, OneSidedHoeffdingEpsilon(st.seal->holdout_rows, 1.0, st.seal->budget_delta,
+                                             log_h + std::log(2.0)));
+    if (eps > st.seal->budget_half_width) {
+      ledger->Rollback();
+      return Refuse(req,
+                    "the holdout budget is spent: after " + std::to_string(st.holdout_queries) +
+                        " queries and the reveals before these models were frozen (ln H = " +
+                        std::to_string(log_h) + "), the Hoeffding half-width would be " +
+                        std::to_string(eps) + ", wider than the " +
+                        std::to_string(st.seal->budget_half_width) + " accepted at seal (delta " +
+                        std::to_string(st.seal->budget_delta) + ")",
+                    json{{"half_width", eps},
+                         {"budget_half_width", st.seal->budget_half_width},
+                         {"log_hypotheses", log_h}});
+    }
+  }
 
   // 4. The holdout, opened only if some question is new.
   std::unique_ptr<HoldoutGuard> guard;

@@ -36,6 +36,8 @@ Result<SealInfo> SealFromJson(const Entry& e) {
       s.key.scrypt.p = k.at("scrypt").at("p").get<uint32_t>();
     }
     s.budget_queries = j.at("budget").at("queries").get<uint64_t>();
+    s.budget_half_width = j.at("budget").value("half_width", 0.0);
+    s.budget_delta = j.at("budget").value("delta", 0.05);
     s.dev_out_path = j.at("dev").at("file").at("path").get<std::string>();
   } catch (const std::exception& ex) {
     return Status::Corruption("entry " + std::to_string(e.seq) + " (seal) is malformed: " + ex.what());

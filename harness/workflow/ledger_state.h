@@ -30,6 +30,8 @@ struct SealInfo {
   Digest256 holdout_set{}, dev_set{}, sealed_rows{}, holdout_feature_digests{};
   KeyInfo key;
   uint64_t budget_queries = 0;  // set at seal, plus every `budget` entry's raise
+  double budget_half_width = 0;  // 0: no half-width limit
+  double budget_delta = 0.05;
   std::string dev_out_path;  // where seal wrote the development rows
 };
 

@@ -290,7 +290,11 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
                             {"moved_to_dev", report.dropped_cross_duplicates}}},
       {"violations", {{"group", report.has_group ? json(report.group_violations) : json(nullptr)},
                       {"time", report.has_time ? json(report.time_violations) : json(nullptr)}}},
-      {"budget", {{"queries", req.budget_queries}}},
+      {"budget", req.budget_half_width > 0
+                     ? json{{"queries", req.budget_queries},
+                            {"half_width", req.budget_half_width},
+                            {"delta", req.budget_delta}}
+                     : json{{"queries", req.budget_queries}}},
   };
   UNSEEN_ASSIGN_OR_RETURN(Entry entry, ledger->Append("seal", req.actor, fields.dump(),
                                                       {holdout_ref, dev_ref, sealed_ref, feat_ref}));

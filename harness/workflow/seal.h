@@ -31,6 +31,10 @@ struct SealRequest {
   uint64_t seed = 0;
   bool drop_cross_duplicates = false;
   uint64_t budget_queries = kDefaultBudgetQueries;
+  // Optional: refuse a query whose Hoeffding half-width on a [0, 1] loss, at
+  // budget_delta over every question so far (ln H), would pass this. 0: none.
+  double budget_half_width = 0;
+  double budget_delta = 0.05;
   std::function<void(double)> progress;
 };
 

@@ -389,6 +389,53 @@ TEST_F(EvalTest, LadderReleasesANewValueOnlyWhenTheBoardMoves) {
   EXPECT_EQ(Eval("--ladder alpha --metric accuracy").exit_code, 2);  // not a loss
 }
 
+TEST(HalfWidthBudgetTest, AQueryWhoseIntervalWouldBeTooWideIsRefused) {
+  TempDir dir;
+  auto Q = [&](const std::string& f) { return ShellQuote(dir.File(f)); };
+  WriteFile(dir.File("d.csv"), testing::SampleCsv(400, 20, 6));
+  WriteFile(dir.File("s.toml"), kSpec);
+  ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
+  ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
+                      " --target label --id id "
+                      "--group site --time day")
+                .exit_code,
+            0);
+  EXPECT_EQ(RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                      " --fraction 0.25 --seed 1 "
+                      "--budget-half-width 0.7 --dev-out " +
+                      Q("dev.csv"))
+                .exit_code,
+            2);
+  ASSERT_EQ(RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                      " --fraction 0.25 --seed 1 "
+                      "--budget-half-width 0.2 --dev-out " +
+                      Q("dev.csv"))
+                .exit_code,
+            0);
+  json st = json::parse(RunUnseen("status --json --ledger " + Q("l")).out);
+  EXPECT_EQ(st["budget_half_width"], 0.2);
+  const double n = st["holdout_rows"];
+  auto fit = [&](const std::string& name, const std::string& l2) {
+    WriteFile(dir.File(name + ".toml"), "[learner]\nkind = \"logistic\"\nl2 = " + l2 + "\n");
+    return RunUnseen("fit --ledger " + Q("l") + " --spec " + Q(name + ".toml") + " --name " + name)
+        .exit_code;
+  };
+  ASSERT_EQ(fit("a", "1.0"), 0);
+  ASSERT_EQ(fit("b", "2.0"), 0);
+  std::string eval = "eval --json --ledger " + Q("l") + " --key-file " + Q("k") + " ";
+  // A batch frozen before any reveal: ln H = ln 2, half-width sqrt(ln(4/0.05)/(2n)) < 0.2.
+  ASSERT_LT(std::sqrt(std::log(4 / 0.05) / (2 * n)), 0.2);
+  ASSERT_EQ(RunUnseen(eval + "a b").exit_code, 0);
+  // A model frozen after those two reveals (n + 1 answers each): ln H = ln(2 + (n+1)^2).
+  ASSERT_EQ(fit("c", "3.0"), 0);
+  const double later =
+      std::sqrt((std::log(2.0) + std::log(2 + (n + 1) * (n + 1)) - std::log(0.05)) / (2 * n));
+  ASSERT_GT(later, 0.2);
+  RunResult refused = RunUnseen(eval + "c");
+  EXPECT_EQ(refused.exit_code, 1) << refused.err;
+  EXPECT_NE(refused.err.find("half-width"), std::string::npos) << refused.err;
+}
+
 TEST_F(EvalTest, ThresholdoutRefusesAHoldoutTooSmallForItsTheorem) {
   Fit("alpha");
   const std::string before = ReadFile(dir_.File("l"));
