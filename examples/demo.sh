@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # The demo workflow on a fresh machine: install, build, then keygen, init,
-# seal, verify, fit, models, predict, export, history and status on the
-# invented Fernbrook crate data.
+# seal, verify, fit, models, predict, export, eval (a batch, a repeat, an
+# external predictor), bound, history and status on the invented Fernbrook
+# crate data.
 # Everything it writes goes to out/demo/ (recreated on each run).
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -24,6 +25,16 @@ head=$("$unseen" head --ledger "$demo/crates.ledger")
 "$unseen" predict --ledger "$demo/crates.ledger" --model crates-logistic --data "$demo/crates.dev.csv" \
   --out "$demo/crates.dev.predictions.csv"
 "$unseen" export --ledger "$demo/crates.ledger" --out "$demo/export.csv" --folds 3 --out-dir "$demo"
+"$unseen" fit --ledger "$demo/crates.ledger" --spec examples/crates-boosted.spec.toml --name crates-boosted
+# The key holder scores both frozen models as one batch, then asks again (answered from the ledger).
+"$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" crates-logistic crates-boosted
+"$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" crates-logistic
+"$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" --metric auc crates-logistic
+# A predictor outside the tool, frozen after three reveals: its interval pays for them.
+"$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" --name always-pass \
+  --command "sh examples/always_pass.sh"
+"$unseen" bound --n 400 --errors 37 --models 4 --reveals 0,0,1,3
+"$unseen" models --ledger "$demo/crates.ledger"
 "$unseen" verify --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key"
 "$unseen" history --ledger "$demo/crates.ledger"
 "$unseen" status --ledger "$demo/crates.ledger"
