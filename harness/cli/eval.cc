@@ -108,9 +108,12 @@ void PrintText(const EvalReport& r) {
     }
   }
   fmt::print(
-      "Holdout queries: {} of {} used ({} by this call). Each interval holds, at confidence "
+      "Holdout queries: {} of {} used ({} by this call{}). Each interval holds, at confidence "
       "1-delta, together with every query so far (ln H = {}).\n",
       r.queries_total, r.budget, r.queries_spent,
+      r.budget_raises == 0
+          ? std::string()
+          : fmt::format("; the budget was raised {} times after the seal", r.budget_raises),
       r.answers.empty() ? std::string("0") : Num(r.answers.back().log_hypotheses));
   fmt::print(
       "The bounds assume the holdout is an independent sample of the population the model will "
@@ -186,14 +189,17 @@ Runner SetupEval(CLI::App& app) {
     }
     UNSEEN_ASSIGN_OR_RETURN(EvalReport r, EvaluateModels(req));
     if (opt->common.json) {
+      // One object per model; the batch's totals are repeated in each.
       nlohmann::json out = nlohmann::json::array();
-      for (const EvalAnswer& a : r.answers) out.push_back(AnswerJson(a));
-      fmt::print("{}\n", nlohmann::json{{"answers", out},
-                                        {"queries_spent", r.queries_spent},
-                                        {"queries_total", r.queries_total},
-                                        {"budget", r.budget},
-                                        {"head", ToHex(r.head)}}
-                             .dump());
+      for (const EvalAnswer& a : r.answers) {
+        nlohmann::json j = AnswerJson(a);
+        j["queries_spent"] = r.queries_spent;
+        j["budget"] = r.budget;
+        j["budget_raises"] = r.budget_raises;
+        j["head"] = ToHex(r.head);
+        out.push_back(j);
+      }
+      fmt::print("{}\n", out.dump());
       return Status::OK();
     }
     PrintText(r);

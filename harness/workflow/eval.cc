@@ -331,6 +331,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
   for (const Query& q : queries) new_queries += q.repeat ? 0 : 1;
   EvalReport report;
   report.budget = st.seal->budget_queries;
+  report.budget_raises = st.budget_raises;
   report.queries_spent = new_queries;
   report.queries_total = st.holdout_queries + new_queries;
   if (report.queries_total > report.budget) {

@@ -85,6 +85,7 @@ struct EvalReport {
   uint64_t queries_spent = 0;
   uint64_t queries_total = 0;
   uint64_t budget = 0;
+  uint64_t budget_raises = 0;  // `budget` entries since the seal
   Digest256 head{};
 };
 

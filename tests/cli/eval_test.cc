@@ -120,9 +120,9 @@ TEST_F(EvalTest, BatchReportsEachModelWithItsEstimateAndBound) {
   RunResult r = Eval("alpha beta");
   ASSERT_EQ(r.exit_code, 0) << r.err;
   json out = json::parse(r.out);
-  ASSERT_EQ(out["answers"].size(), 2u);
-  EXPECT_EQ(out["queries_spent"], 2);
-  for (const json& a : out["answers"]) {
+  ASSERT_EQ(out.size(), 2u);
+  EXPECT_EQ(out[0]["queries_spent"], 2);
+  for (const json& a : out) {
     for (const char* key :
          {"model", "metric", "estimate", "lower", "upper", "method", "delta", "n", "queries"}) {
       EXPECT_TRUE(a.contains(key)) << key;
@@ -167,28 +167,27 @@ TEST_F(EvalTest, TextOutputNamesTheCaution) {
 
 TEST_F(EvalTest, RepeatedQueryIsAnsweredFromTheLedgerWithoutBudgetOrKey) {
   Fit("alpha");
-  json first = json::parse(Eval("alpha").out)["answers"][0];
+  json first = json::parse(Eval("alpha").out)[0];
   RunResult again = RunUnseen("eval --json --ledger " + Q("l") + " alpha");  // no key needed
   ASSERT_EQ(again.exit_code, 0) << again.err;
   json second = json::parse(again.out);
-  EXPECT_EQ(second["queries_spent"], 0);
-  EXPECT_EQ(second["answers"][0]["repeated"], true);
-  EXPECT_EQ(second["answers"][0]["estimate"], first["estimate"]);
-  EXPECT_EQ(second["answers"][0]["lower"], first["lower"]);
+  EXPECT_EQ(second[0]["queries_spent"], 0);
+  EXPECT_EQ(second[0]["repeated"], true);
+  EXPECT_EQ(second[0]["estimate"], first["estimate"]);
+  EXPECT_EQ(second[0]["lower"], first["lower"]);
   EXPECT_EQ(Status()["holdout_queries"], 1);
   // A different metric is a new question.
   json third = json::parse(Eval("alpha --metric accuracy").out);
-  EXPECT_EQ(third["queries_spent"], 1);
-  EXPECT_NEAR(third["answers"][0]["estimate"].get<double>(), 1 - first["estimate"].get<double>(),
-              1e-9);
+  EXPECT_EQ(third[0]["queries_spent"], 1);
+  EXPECT_NEAR(third[0]["estimate"].get<double>(), 1 - first["estimate"].get<double>(), 1e-9);
 }
 
 TEST_F(EvalTest, ModelFrozenAfterARevealCountsEveryAnswerItCouldHaveUsed) {
   Fit("alpha");
-  json first = json::parse(Eval("alpha").out)["answers"][0];
+  json first = json::parse(Eval("alpha").out)[0];
   const double n = first["n"];
   Fit("gamma", "[learner]\nkind = \"logistic\"\nl2 = 5.0\n");
-  json second = json::parse(Eval("gamma").out)["answers"][0];
+  json second = json::parse(Eval("gamma").out)[0];
   EXPECT_EQ(second["reveals_before_freeze"], 1);
   // alpha: frozen before any reveal (weight 1); gamma: after one
   // Clopper–Pearson answer, which is a function of k in 0..n (n+1 values).
@@ -287,7 +286,7 @@ TEST_F(EvalTest, ModelWhoseLineageReadTheHoldoutIsRefusedUnlessAccepted) {
 
   RunResult forced = Eval("peeked --accept-contamination 'audit of a known leak'");
   ASSERT_EQ(forced.exit_code, 0) << forced.err;
-  json a = json::parse(forced.out)["answers"][0];
+  json a = json::parse(forced.out)[0];
   EXPECT_EQ(a["contaminated"], true);
   EXPECT_FALSE(a["taints"].empty());
   json last = History().back();
@@ -351,15 +350,15 @@ TEST_F(EvalTest, EveryMetricGivesAnIntervalInsideItsRange) {
   for (const char* metric : {"accuracy", "balanced_accuracy", "log_loss", "brier", "auc"}) {
     RunResult r = Eval(std::string("alpha --metric ") + metric);
     ASSERT_EQ(r.exit_code, 0) << metric << ": " << r.err;
-    json a = json::parse(r.out)["answers"][0];
+    json a = json::parse(r.out)[0];
     EXPECT_LE(a["range"][0].get<double>(), a["lower"].get<double>()) << metric;
     EXPECT_LE(a["lower"].get<double>(), a["estimate"].get<double>()) << metric;
     EXPECT_LE(a["estimate"].get<double>(), a["upper"].get<double>()) << metric;
     EXPECT_LE(a["upper"].get<double>(), a["range"][1].get<double>()) << metric;
   }
-  json ll = json::parse(Eval("alpha --metric log_loss --prob-floor 0.01").out)["answers"][0];
+  json ll = json::parse(Eval("alpha --metric log_loss --prob-floor 0.01").out)[0];
   EXPECT_NEAR(ll["range"][1].get<double>(), -std::log(0.01), 1e-12);
-  EXPECT_EQ(json::parse(Eval("alpha --metric auc").out)["answers"][0]["method"], "mcdiarmid");
+  EXPECT_EQ(json::parse(Eval("alpha --metric auc").out)[0]["method"], "mcdiarmid");
 }
 
 TEST_F(EvalTest, LadderReleasesANewValueOnlyWhenTheBoardMoves) {
@@ -367,7 +366,7 @@ TEST_F(EvalTest, LadderReleasesANewValueOnlyWhenTheBoardMoves) {
   Fit("weak", "[learner]\nkind = \"knn\"\nk = 1\n");
   RunResult first = Eval("--ladder --ladder-step 0.05 weak");
   ASSERT_EQ(first.exit_code, 0) << first.err;
-  json a = json::parse(first.out)["answers"][0];
+  json a = json::parse(first.out)[0];
   EXPECT_EQ(a["mode"], "ladder");
   EXPECT_EQ(a["method"], "ladder");
   EXPECT_EQ(a["improved"], true);
@@ -379,7 +378,7 @@ TEST_F(EvalTest, LadderReleasesANewValueOnlyWhenTheBoardMoves) {
   // only if it beats it by more than the step.
   auto [alpha_errors, n2] = HoldoutErrors("alpha");
   const double alpha = static_cast<double>(alpha_errors) / n2;
-  json b = json::parse(Eval("--ladder --ladder-step 0.05 alpha").out)["answers"][0];
+  json b = json::parse(Eval("--ladder --ladder-step 0.05 alpha").out)[0];
   const bool moves = alpha < weak - 0.05;
   EXPECT_EQ(b["improved"], moves);
   EXPECT_NEAR(b["estimate"].get<double>(), moves ? std::round(alpha / 0.05) * 0.05 : weak, 1e-12);
@@ -466,7 +465,7 @@ TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
   RunResult r = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
                           " --thresholdout --thresholdout-budget 1 alpha");
   ASSERT_EQ(r.exit_code, 0) << r.err;
-  json a = json::parse(r.out)["answers"][0];
+  json a = json::parse(r.out)[0];
   EXPECT_EQ(a["method"], "thresholdout");
   const double tau = a["tau"];
   EXPECT_GT(tau, 0);
@@ -474,8 +473,7 @@ TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
   // The plain answer on the same holdout: Thresholdout's answer is within tau of it here.
   json plain = json::parse(
       RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") + " alpha").out);
-  EXPECT_LT(std::fabs(a["estimate"].get<double>() - plain["answers"][0]["estimate"].get<double>()),
-            tau);
+  EXPECT_LT(std::fabs(a["estimate"].get<double>() - plain[0]["estimate"].get<double>()), tau);
   json hist = json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
   json entry;
   for (const json& e : hist) {
@@ -493,7 +491,7 @@ TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
   RunResult second = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
                                " --thresholdout --thresholdout-budget 1 beta");
   ASSERT_EQ(second.exit_code, 0) << second.err;
-  EXPECT_EQ(json::parse(second.out)["answers"][0]["tau"], tau);
+  EXPECT_EQ(json::parse(second.out)[0]["tau"], tau);
   EXPECT_EQ(RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k")).exit_code, 0);
 }
 
@@ -512,7 +510,7 @@ TEST_F(ExternalEvalTest, PredictorSeesTokensAndFeaturesOnlyAndIsScored) {
       External("tee " + ShellQuote(dir_.File("seen.csv")) +
                " | awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
   ASSERT_EQ(r.exit_code, 0) << r.err;
-  json a = json::parse(r.out)["answers"][0];
+  json a = json::parse(r.out)[0];
   EXPECT_EQ(a["kind"], "external");
   uint64_t no = 0;
   auto rows = HoldoutRows();
