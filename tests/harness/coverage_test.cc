@@ -7,6 +7,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstdio>
 #include <vector>
 
 #include "harness/adaptivity.h"
@@ -64,6 +65,8 @@ TEST(CoverageTest, BestOfFixedModelsIsCoveredByEveryMethod) {
     }
   }
   for (int m = 0; m < 3; ++m) {
+    std::printf("best of %d fixed models, %s: coverage %.4f\n", models, BoundMethodName(methods[m]),
+                Covered(hits[m]));
     EXPECT_GE(Covered(hits[m]), 1 - kDelta) << BoundMethodName(methods[m]);
   }
 }
@@ -99,6 +102,7 @@ TEST(CoverageTest, AucIntervalCoversTheTrueAuc) {
     RevealedAnswer shown = RevealAnswer(*s, *b, BoundMethod::kMcDiarmid);
     hits += shown.lower <= truth && truth <= shown.upper;
   }
+  std::printf("auc, mcdiarmid: coverage %.4f\n", Covered(hits));
   EXPECT_GE(Covered(hits), 1 - kDelta);
 }
 
@@ -149,6 +153,8 @@ TEST(CoverageTest, AdaptiveAnalystBeatsTheUnionBoundButNotTheAdaptiveOne) {
     plain_hits += plain->lower <= truth && truth <= plain->upper;
     adaptive_hits += adaptive->lower <= truth && truth <= adaptive->upper;
   }
+  std::printf("adaptive analyst: mean holdout error %.4f; plain union coverage %.4f, adaptive %.4f\n",
+              mean_estimate, Covered(plain_hits), Covered(adaptive_hits));
   EXPECT_LT(mean_estimate, 0.33);  // the vote looks far better than chance on the holdout
   EXPECT_LT(Covered(plain_hits), 1 - kDelta);
   EXPECT_GE(Covered(adaptive_hits), 1 - kDelta);
