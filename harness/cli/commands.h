@@ -22,6 +22,7 @@ Runner SetupModels(CLI::App& app);
 Runner SetupPredict(CLI::App& app);
 Runner SetupExport(CLI::App& app);
 Runner SetupScore(CLI::App& app);
+Runner SetupCarve(CLI::App& app);
 
 }  // namespace unseen::cli
 

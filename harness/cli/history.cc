@@ -4,6 +4,7 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
+#include "harness/workflow/carve.h"
 #include "harness/workflow/ledger_state.h"
 
 namespace unseen::cli {
@@ -80,6 +81,16 @@ Runner SetupStatus(CLI::App& app) {
         j["budget_queries"] = st.seal->budget_queries;
         j["budget_remaining"] = st.seal->budget_queries > st.holdout_queries
                                     ? st.seal->budget_queries - st.holdout_queries : 0;
+        UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
+        j["partitions"] = json::array();
+        for (const NamedPartition& p : parts) {
+          j["partitions"].push_back({{"name", p.name},
+                                     {"rows", p.rows.Cardinality()},
+                                     {"strategy", p.strategy},
+                                     {"seed", p.seed},
+                                     {"row_set", ToHex(p.row_set)},
+                                     {"entry", p.entry_seq}});
+        }
       }
       fmt::print("{}\n", j.dump());
       return Status::OK();
@@ -94,6 +105,11 @@ Runner SetupStatus(CLI::App& app) {
     const SealInfo& seal = *st.seal;
     fmt::print("holdout  sealed: {} rows ({} split, seed {}); dev {} rows\n", seal.holdout_rows,
                seal.strategy, seal.seed, seal.dev_rows);
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
+    for (const NamedPartition& p : parts) {
+      fmt::print("carved   {}: {} dev rows ({}, seed {})\n", p.name, p.rows.Cardinality(),
+                 p.strategy, p.seed);
+    }
     uint64_t left = seal.budget_queries > st.holdout_queries ? seal.budget_queries - st.holdout_queries : 0;
     fmt::print("queries  {} of {} used, {} remaining\n", st.holdout_queries, seal.budget_queries, left);
     return Status::OK();

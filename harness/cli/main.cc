@@ -14,11 +14,10 @@ int main(int argc, char** argv) {
                "report honest holdout scores"};
   app.set_version_flag("--version", std::string("unseen ") + unseen::kVersion);
   app.require_subcommand(1);
-  std::vector<Runner> runners = {SetupKeygen(app), SetupInit(app),    SetupSeal(app),
-                                 SetupVerify(app), SetupHead(app),    SetupHistory(app),
-                                 SetupStatus(app), SetupFit(app),     SetupModels(app),
-                                 SetupPredict(app), SetupExport(app),
-                                 SetupScore(app)};
+  std::vector<Runner> runners = {
+      SetupKeygen(app),  SetupInit(app),   SetupSeal(app), SetupVerify(app), SetupHead(app),
+      SetupHistory(app), SetupStatus(app), SetupFit(app),  SetupModels(app), SetupPredict(app),
+      SetupExport(app),  SetupScore(app),  SetupCarve(app)};
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
