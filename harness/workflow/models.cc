@@ -1,8 +1,10 @@
 #include "harness/workflow/models.h"
 
-#include <cstdio>
 #include <fmt/core.h>
 
+#include <cstdio>
+
+#include "harness/pipeline/blend.h"
 #include "harness/pipeline/pipeline.h"
 #include "harness/workflow/dataset.h"
 #include "harness/workflow/ledger_state.h"
@@ -50,13 +52,83 @@ Result<json> LoadModel(const Ledger& ledger, const std::string& name, ModelSumma
                           (known.empty() ? std::string("none yet") : known) + ")");
 }
 
+Result<json> LoadModelByDigest(const Ledger& ledger, const Digest256& digest) {
+  UNSEEN_ASSIGN_OR_RETURN(std::string text, ledger.GetBlob(digest));
+  json model = json::parse(text, nullptr, /*allow_exceptions=*/false);
+  if (!model.is_object()) {
+    return Status::Corruption("model blob " + ToHex(digest) + " is not a JSON object");
+  }
+  return model;
+}
+
+Result<LearnTask> FrozenModelTask(const json& model) {
+  const json* holder = nullptr;
+  if (model.contains("pipeline")) holder = &model["pipeline"];
+  if (model.contains("blend")) holder = &model["blend"];
+  if (holder == nullptr || !holder->is_object() || !(*holder).contains("task") ||
+      !(*holder)["task"].is_string()) {
+    return Status::Corruption("frozen model has neither a pipeline nor a blend with a task");
+  }
+  return (*holder)["task"].get<std::string>() == "classification" ? LearnTask::kClassification
+                                                                  : LearnTask::kRegression;
+}
+
 namespace {
+
+constexpr int kMaxBlendDepth = 16;
+
+Result<Predictions> Apply(const Ledger& ledger, const json& model, const Frame& x, int depth);
+
+Result<Predictions> ApplyBlend(const Ledger& ledger, const json& blend, const Frame& x, int depth) {
+  if (depth >= kMaxBlendDepth) {
+    return Status::Corruption("blend members are nested more than " +
+                              std::to_string(kMaxBlendDepth) + " deep");
+  }
+  try {
+    const LearnTask task = blend.at("task").get<std::string>() == "classification"
+                               ? LearnTask::kClassification
+                               : LearnTask::kRegression;
+    const json& members = blend.at("members");
+    LinearWeights w;
+    w.weights.resize(static_cast<Eigen::Index>(members.size()));
+    w.intercept = blend.at("intercept").get<double>();
+    Eigen::MatrixXd scores(static_cast<Eigen::Index>(x.rows()), w.weights.size());
+    for (size_t i = 0; i < members.size(); ++i) {
+      const json& m = members[i];
+      const std::string name = m.at("name").get<std::string>();
+      w.weights(static_cast<Eigen::Index>(i)) = m.at("weight").get<double>();
+      UNSEEN_ASSIGN_OR_RETURN(Digest256 digest,
+                              Digest256FromHex(m.at("model_digest").get<std::string>()));
+      UNSEEN_ASSIGN_OR_RETURN(json member, LoadModelByDigest(ledger, digest));
+      UNSEEN_ASSIGN_OR_RETURN(Predictions p, Apply(ledger, member, x, depth + 1));
+      Result<Eigen::VectorXd> score = MemberScore(p, task);
+      if (!score.ok()) {
+        return Status::FailedPrecondition("blend member '" + name + "' " +
+                                          score.status().message());
+      }
+      scores.col(static_cast<Eigen::Index>(i)) = *score;
+    }
+    return BlendPredictions(w, scores, task);
+  } catch (const std::exception& e) {
+    return Status::Corruption(std::string("frozen blend is malformed: ") + e.what());
+  }
+}
+
+Result<Predictions> Apply(const Ledger& ledger, const json& model, const Frame& x, int depth) {
+  if (model.contains("blend")) return ApplyBlend(ledger, model["blend"], x, depth);
+  if (!model.contains("pipeline")) {
+    return Status::Corruption("frozen model has neither a pipeline nor a blend");
+  }
+  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline pipeline, FittedPipeline::FromJson(model["pipeline"]));
+  return pipeline.Predict(x);
+}
 
 // Writes predictions as CSV; returns the file's SHA-256.
 Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d, const Predictions& p,
                                    const json& model) {
   std::vector<std::string> classes = model.at("target").at("classes").get<std::vector<std::string>>();
-  bool classification = model.at("pipeline").at("task") == "classification";
+  UNSEEN_ASSIGN_OR_RETURN(LearnTask task, FrozenModelTask(model));
+  bool classification = task == LearnTask::kClassification;
   std::string text = "id,prediction";
   if (classification && p.proba.size() > 0) {
     for (const std::string& c : classes) text += ",p_" + c;
@@ -82,6 +154,10 @@ Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d,
 
 }  // namespace
 
+Result<Predictions> ApplyFrozenModel(const Ledger& ledger, const json& model, const Frame& x) {
+  return Apply(ledger, model, x, 0);
+}
+
 Result<PredictReport> PredictWithModel(const PredictRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
   UNSEEN_RETURN_IF_ERROR(ledger->Begin());
@@ -98,8 +174,7 @@ Result<PredictReport> PredictWithModel(const PredictRequest& req) {
     UNSEEN_RETURN_IF_ERROR(RecordRefusal(req.ledger_path, req.actor, "predict", loaded.status(), details.dump()));
     return loaded.status();
   }
-  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline pipeline, FittedPipeline::FromJson(model.at("pipeline")));
-  UNSEEN_ASSIGN_OR_RETURN(Predictions p, pipeline.Predict(loaded->features));
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, ApplyFrozenModel(*ledger, model, loaded->features));
   PredictReport report;
   report.rows = loaded->ids.size();
   UNSEEN_ASSIGN_OR_RETURN(report.out_sha256, WritePredictions(req.out_path, *loaded, p, model));
