@@ -151,18 +151,19 @@ Result<Eigen::MatrixXd> MemberScores(const Ledger& ledger, const std::vector<Mem
   Eigen::MatrixXd scores(static_cast<Eigen::Index>(x.rows()),
                          static_cast<Eigen::Index>(members.size()));
   for (size_t i = 0; i < members.size(); ++i) {
-    UNSEEN_ASSIGN_OR_RETURN(LearnTask member_task, FrozenModelTask(members[i].model));
-    if (member_task != task) {
-      return Status::InvalidArgument(where + "blend: member '" + members[i].summary.name +
+    const ModelSummary& s = members[i].summary;
+    UNSEEN_ASSIGN_OR_RETURN(FrozenModel member, LoadFrozenModel(ledger, members[i].model));
+    if (member.task() != task) {
+      return Status::InvalidArgument(where + "blend: member '" + s.name +
                                      "' was fitted for another task");
     }
-    UNSEEN_ASSIGN_OR_RETURN(Predictions p, ApplyFrozenModel(ledger, members[i].model, x));
-    Result<Eigen::VectorXd> s = MemberScore(p, task);
-    if (!s.ok()) {
-      return Status::InvalidArgument(where + "blend: member '" + members[i].summary.name + "' (" +
-                                     members[i].summary.learner + ") " + s.status().message());
+    UNSEEN_ASSIGN_OR_RETURN(Predictions p, member.Predict(x));
+    Result<Eigen::VectorXd> score = MemberScore(p, task);
+    if (!score.ok()) {
+      return Status::InvalidArgument(where + "blend: member '" + s.name + "' (" + s.learner + ") " +
+                                     score.status().message());
     }
-    scores.col(static_cast<Eigen::Index>(i)) = *s;
+    scores.col(static_cast<Eigen::Index>(i)) = *score;
   }
   return scores;
 }

@@ -4,8 +4,6 @@
 
 #include <cstdio>
 
-#include "harness/pipeline/blend.h"
-#include "harness/pipeline/pipeline.h"
 #include "harness/workflow/dataset.h"
 #include "harness/workflow/ledger_state.h"
 #include "harness/workflow/staged_file.h"
@@ -61,73 +59,13 @@ Result<json> LoadModelByDigest(const Ledger& ledger, const Digest256& digest) {
   return model;
 }
 
-Result<LearnTask> FrozenModelTask(const json& model) {
-  const json* holder = nullptr;
-  if (model.contains("pipeline")) holder = &model["pipeline"];
-  if (model.contains("blend")) holder = &model["blend"];
-  if (holder == nullptr || !holder->is_object() || !(*holder).contains("task") ||
-      !(*holder)["task"].is_string()) {
-    return Status::Corruption("frozen model has neither a pipeline nor a blend with a task");
-  }
-  return (*holder)["task"].get<std::string>() == "classification" ? LearnTask::kClassification
-                                                                  : LearnTask::kRegression;
-}
-
 namespace {
-
-constexpr int kMaxBlendDepth = 16;
-
-Result<Predictions> Apply(const Ledger& ledger, const json& model, const Frame& x, int depth);
-
-Result<Predictions> ApplyBlend(const Ledger& ledger, const json& blend, const Frame& x, int depth) {
-  if (depth >= kMaxBlendDepth) {
-    return Status::Corruption("blend members are nested more than " +
-                              std::to_string(kMaxBlendDepth) + " deep");
-  }
-  try {
-    const LearnTask task = blend.at("task").get<std::string>() == "classification"
-                               ? LearnTask::kClassification
-                               : LearnTask::kRegression;
-    const json& members = blend.at("members");
-    LinearWeights w;
-    w.weights.resize(static_cast<Eigen::Index>(members.size()));
-    w.intercept = blend.at("intercept").get<double>();
-    Eigen::MatrixXd scores(static_cast<Eigen::Index>(x.rows()), w.weights.size());
-    for (size_t i = 0; i < members.size(); ++i) {
-      const json& m = members[i];
-      const std::string name = m.at("name").get<std::string>();
-      w.weights(static_cast<Eigen::Index>(i)) = m.at("weight").get<double>();
-      UNSEEN_ASSIGN_OR_RETURN(Digest256 digest,
-                              Digest256FromHex(m.at("model_digest").get<std::string>()));
-      UNSEEN_ASSIGN_OR_RETURN(json member, LoadModelByDigest(ledger, digest));
-      UNSEEN_ASSIGN_OR_RETURN(Predictions p, Apply(ledger, member, x, depth + 1));
-      Result<Eigen::VectorXd> score = MemberScore(p, task);
-      if (!score.ok()) {
-        return Status::FailedPrecondition("blend member '" + name + "' " +
-                                          score.status().message());
-      }
-      scores.col(static_cast<Eigen::Index>(i)) = *score;
-    }
-    return BlendPredictions(w, scores, task);
-  } catch (const std::exception& e) {
-    return Status::Corruption(std::string("frozen blend is malformed: ") + e.what());
-  }
-}
-
-Result<Predictions> Apply(const Ledger& ledger, const json& model, const Frame& x, int depth) {
-  if (model.contains("blend")) return ApplyBlend(ledger, model["blend"], x, depth);
-  if (!model.contains("pipeline")) {
-    return Status::Corruption("frozen model has neither a pipeline nor a blend");
-  }
-  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline pipeline, FittedPipeline::FromJson(model["pipeline"]));
-  return pipeline.Predict(x);
-}
 
 // Writes predictions as CSV; returns the file's SHA-256.
 Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d, const Predictions& p,
                                    const json& model) {
   std::vector<std::string> classes = model.at("target").at("classes").get<std::vector<std::string>>();
-  UNSEEN_ASSIGN_OR_RETURN(LearnTask task, FrozenModelTask(model));
+  UNSEEN_ASSIGN_OR_RETURN(LearnTask task, FrozenModel::TaskOf(model));
   bool classification = task == LearnTask::kClassification;
   std::string text = "id,prediction";
   if (classification && p.proba.size() > 0) {
@@ -154,8 +92,14 @@ Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d,
 
 }  // namespace
 
+Result<FrozenModel> LoadFrozenModel(const Ledger& ledger, const json& model) {
+  return FrozenModel::FromJson(
+      model, [&ledger](const Digest256& digest) { return LoadModelByDigest(ledger, digest); });
+}
+
 Result<Predictions> ApplyFrozenModel(const Ledger& ledger, const json& model, const Frame& x) {
-  return Apply(ledger, model, x, 0);
+  UNSEEN_ASSIGN_OR_RETURN(FrozenModel loaded, LoadFrozenModel(ledger, model));
+  return loaded.Predict(x);
 }
 
 Result<PredictReport> PredictWithModel(const PredictRequest& req) {

@@ -9,7 +9,7 @@
 
 #include "harness/evaluate/metrics.h"
 #include "harness/pipeline/frame.h"
-#include "harness/pipeline/learner.h"
+#include "harness/pipeline/frozen_model.h"
 #include "storage/digest.h"
 #include "storage/ledger.h"
 #include "storage/status.h"
@@ -37,20 +37,18 @@ Result<nlohmann::json> LoadModel(const Ledger& ledger, const std::string& name, 
 // a JSON object.
 Result<nlohmann::json> LoadModelByDigest(const Ledger& ledger, const Digest256& digest);
 
-// The task of a frozen model: an ordinary pipeline's, or a blend's.
-// Corruption if the model JSON has neither.
-Result<LearnTask> FrozenModelTask(const nlohmann::json& model);
+// A frozen model (as LoadModel returns it) made ready to apply
+// (harness/pipeline/frozen_model.h): a blend's members are read from
+// `ledger` by the digests it recorded, recursively. Corruption if the model
+// or a member is malformed or missing.
+Result<FrozenModel> LoadFrozenModel(const Ledger& ledger, const nlohmann::json& model);
 
-// Applies a frozen model (as LoadModel returns it) to the rows of `x`, which
-// must hold the input columns the model was fitted on (by name; extra
-// columns are ignored). An ordinary pipeline predicts through
-// FittedPipeline; a blend loads each member from `ledger` by the digest it
-// recorded, applies it the same way (members may be blends themselves) and
-// combines the members' scores with its weights (harness/pipeline/blend.h).
-// This is the one place that turns a frozen model into predictions: predict,
-// blends and holdout evaluation all go through it. InvalidArgument if `x`
-// lacks a column the model needs; Corruption if the model or a member is
-// malformed, missing or nested more than 16 blends deep.
+// Applies a frozen model to the rows of `x`: LoadFrozenModel, then
+// FrozenModel::Predict. This is the one way a frozen model becomes
+// predictions (predict and blends use it; holdout evaluation should too):
+// an ordinary pipeline predicts through FittedPipeline, a blend combines its
+// members' scores. InvalidArgument if `x` lacks a column the model needs;
+// Corruption as LoadFrozenModel.
 Result<Predictions> ApplyFrozenModel(const Ledger& ledger, const nlohmann::json& model,
                                      const Frame& x);
 

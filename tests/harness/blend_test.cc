@@ -2,7 +2,8 @@
 // blend weights against numpy.linalg.lstsq and scipy (reference values
 // written by tests/data/blend/make_nnls_reference.py with Debian's scipy
 // 1.10.1 and numpy 1.24.2), the KKT conditions on seeded random problems,
-// clipping, cross-validated contributions and the blend spec table.
+// clipping, cross-validated contributions, the blend spec table and
+// applying a frozen blend.
 #include "harness/pipeline/blend.h"
 
 #include <gtest/gtest.h>
@@ -10,11 +11,15 @@
 #include <Eigen/Dense>
 #include <cmath>
 #include <limits>
+#include <map>
 #include <nlohmann/json.hpp>
 #include <string>
+#include <utility>
 #include <vector>
 
+#include "harness/pipeline/frozen_model.h"
 #include "harness/pipeline/nnls.h"
+#include "harness/pipeline/pipeline.h"
 #include "harness/pipeline/spec.h"
 #include "harness/random.h"
 #include "tests/testing/testing.h"
@@ -280,6 +285,78 @@ TEST(BlendSpecTest, UnknownLearnerKindListsBlend) {
   ASSERT_OK(spec);
   Status s = ValidateSpec(*spec, {});
   EXPECT_NE(s.message().find("blend"), std::string::npos) << s.message();
+}
+
+// A frozen linear model of y on x fitted on `rows` (x, y) pairs, as `fit` stores it.
+json FrozenLinear(const std::vector<std::pair<double, double>>& rows) {
+  Frame f;
+  f.columns.push_back(FrameColumn{"x", true, {}, {}});
+  Eigen::VectorXd y(static_cast<Eigen::Index>(rows.size()));
+  for (size_t i = 0; i < rows.size(); ++i) {
+    f.columns[0].num.push_back(rows[i].first);
+    y(static_cast<Eigen::Index>(i)) = rows[i].second;
+  }
+  Candidate c;
+  c.learner.kind = "linear";
+  Result<FittedPipeline> p = FitPipeline(c, f, y, LearnTask::kRegression, 0);
+  EXPECT_TRUE(p.ok()) << p.status().ToString();
+  return json{{"pipeline", p->ToJson()}};
+}
+
+json BlendOf(const std::vector<std::string>& digests, const std::vector<double>& weights,
+             double intercept) {
+  json members = json::array();
+  for (size_t i = 0; i < digests.size(); ++i) {
+    members.push_back(
+        {{"name", "m" + std::to_string(i)}, {"model_digest", digests[i]}, {"weight", weights[i]}});
+  }
+  return json{{"blend", {{"task", "regression"}, {"intercept", intercept}, {"members", members}}}};
+}
+
+TEST(FrozenModelTest, BlendAppliesItsMembersThroughTheSource) {
+  const std::string d1(64, 'a'), d2(64, 'b');
+  std::map<std::string, json> store = {{d1, FrozenLinear({{0, 1}, {1, 3}, {2, 5}})},     // 1 + 2x
+                                       {d2, FrozenLinear({{0, 0}, {1, -1}, {2, -2}})}};  // -x
+  FrozenModel::MemberSource source = [&](const Digest256& d) -> Result<json> {
+    auto it = store.find(ToHex(d));
+    if (it == store.end()) return Status::NotFound("no blob " + ToHex(d));
+    return it->second;
+  };
+  Result<FrozenModel> m = FrozenModel::FromJson(BlendOf({d1, d2}, {0.5, 2.0}, 0.25), source);
+  ASSERT_OK(m);
+  EXPECT_TRUE(m->is_blend());
+  EXPECT_EQ(m->task(), LearnTask::kRegression);
+  Frame x;
+  x.columns.push_back(FrameColumn{"x", true, {0.0, 1.0, 4.0}, {}});
+  x.columns.push_back(FrameColumn{"ignored", true, {9.0, 9.0, 9.0}, {}});
+  Result<Predictions> p = m->Predict(x);
+  ASSERT_OK(p);
+  for (Eigen::Index i = 0; i < 3; ++i) {
+    double xi = x.columns[0].num[static_cast<size_t>(i)];
+    EXPECT_NEAR(p->value(i), 0.25 + 0.5 * (1 + 2 * xi) + 2.0 * (-xi), 1e-12) << i;
+  }
+  // A missing column, a missing member and a blend that contains itself.
+  Frame empty;
+  empty.columns.push_back(FrameColumn{"z", true, {1.0}, {}});
+  EXPECT_TRUE(m->Predict(empty).status().IsInvalidArgument());
+  EXPECT_TRUE(FrozenModel::FromJson(BlendOf({d1, std::string(64, 'c')}, {1, 1}, 0), source)
+                  .status()
+                  .IsNotFound());
+  store[d2] = BlendOf({d1, d2}, {1, 1}, 0);
+  Status loop = FrozenModel::FromJson(BlendOf({d1, d2}, {1, 1}, 0), source).status();
+  EXPECT_TRUE(loop.IsCorruption()) << loop.ToString();
+  EXPECT_NE(loop.message().find("nested more than 16"), std::string::npos) << loop.message();
+}
+
+TEST(FrozenModelTest, MalformedModelsAreCorruption) {
+  FrozenModel::MemberSource none = [](const Digest256&) -> Result<json> {
+    return Status::NotFound("none");
+  };
+  for (const json& bad : {json::object(), json{{"pipeline", 3}}, json{{"blend", {{"task", 1}}}},
+                          json{{"blend", {{"task", "regression"}}}}}) {
+    EXPECT_TRUE(FrozenModel::FromJson(bad, none).status().IsCorruption()) << bad.dump();
+  }
+  EXPECT_TRUE(FrozenModel::TaskOf(json::array()).status().IsCorruption());
 }
 
 }  // namespace
