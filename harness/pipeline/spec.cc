@@ -292,7 +292,10 @@ std::vector<Axis> Axes(const PipelineSpec& spec) {
     CollectAxes(spec.transforms[i].params, static_cast<int>(i),
                 "transform[" + std::to_string(i) + "]", &path, &axes);
   }
-  CollectAxes(spec.learner.params, -1, "learner", &path, &axes);
+  // A blend has no grid: its `members` list is one value (ReadBlendSpec
+  // refuses arrays anywhere else).
+  if (spec.learner.kind != kBlendKind)
+    CollectAxes(spec.learner.params, -1, "learner", &path, &axes);
   return axes;
 }
 

@@ -82,6 +82,7 @@ Result<PipelineSpec> ParseSpecText(const std::string& text, const std::string& n
 // The cartesian product of every grid axis. Axes are ordered transform[0],
 // transform[1], ..., then the learner; within a step by key name (nested
 // keys depth-first); the last axis varies fastest. No axes: one candidate.
+// A blend spec has no axes (its `members` list is one value).
 std::vector<Candidate> ExpandGrid(const PipelineSpec& spec);
 
 // The number of candidates ExpandGrid would return (saturates at UINT64_MAX).

@@ -237,6 +237,11 @@ TEST(BlendSpecTest, ReadsMembersPartitionAndSign) {
       "[learner]\nkind = \"blend\"\nmembers = [\"a\", \"b\"]\npartition = \"p\"\n", "b.toml");
   ASSERT_OK(spec);
   EXPECT_OK(ValidateSpec(*spec, {"x"}));
+  // The members list is one value, not a grid axis.
+  std::vector<Candidate> one = ExpandGrid(*spec);
+  ASSERT_EQ(one.size(), 1u);
+  EXPECT_EQ(one[0].learner.params["members"], json({"a", "b"}));
+  EXPECT_TRUE(one[0].settings.empty());
   EXPECT_FALSE(ReadText("[learner]\nkind = \"blend\"\nmembers = [\"a\", \"b\"]\n"
                         "partition = \"p\"\n")
                    ->nonnegative);
