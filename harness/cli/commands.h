@@ -25,6 +25,7 @@ Runner SetupScore(CLI::App& app);
 Runner SetupEval(CLI::App& app);
 Runner SetupBudget(CLI::App& app);
 Runner SetupBound(CLI::App& app);
+Runner SetupCarve(CLI::App& app);
 
 }  // namespace unseen::cli
 

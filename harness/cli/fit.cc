@@ -12,10 +12,53 @@ namespace {
 
 struct FitOptions {
   CommonOptions common;
-  std::string spec, name, data;
+  std::string spec, name, data, exclude;
 };
 
+void PrintBlend(const FitOptions& opt, const FitReport& r) {
+  const BlendReport& b = *r.blend;
+  if (opt.common.json) {
+    nlohmann::json members = nlohmann::json::array();
+    for (const BlendMemberReport& m : b.members) {
+      members.push_back({{"name", m.name},
+                         {"model_digest", ToHex(m.digest)},
+                         {"fit_entry", m.fit_entry},
+                         {"weight", m.weight},
+                         {"loss_without", m.loss_without},
+                         {"contribution", m.contribution}});
+    }
+    nlohmann::json j = {{"model", r.name},          {"model_digest", ToHex(r.model_digest)},
+                        {"learner", "blend"},       {"rows", r.rows},
+                        {"partition", b.partition}, {"nonnegative", b.nonnegative},
+                        {"intercept", b.intercept}, {"metric", r.metric},
+                        {"selection", r.selection}, {"folds", r.folds},
+                        {"loss_all", b.loss_all},   {"members", members},
+                        {"head", ToHex(r.head)}};
+    fmt::print("{}\n", j.dump());
+    return;
+  }
+  fmt::print("Froze blend {} ({} rows of partition {}), digest {}\n", r.name, r.rows, b.partition,
+             ToHex(r.model_digest));
+  fmt::print("  weights    {}least squares, intercept {:.6g}\n",
+             b.nonnegative ? "non-negative " : "", b.intercept);
+  std::string how = r.selection == "validation"
+                        ? std::string("one validation split")
+                        : std::to_string(r.folds) + "-fold cross-validation";
+  fmt::print("  {} of the blend of all members {:.6g} ({} inside the partition)\n", r.metric,
+             b.loss_all, how);
+  fmt::print("  contribution = {} without the member - {} with all of them\n", r.metric, r.metric);
+  for (const BlendMemberReport& m : b.members) {
+    fmt::print("  {:<20} weight {:<12.6g} contribution {:+.6g}\n", m.name, m.weight,
+               m.contribution);
+  }
+  fmt::print("  head       {}\n", ToHex(r.head));
+}
+
 void PrintReport(const FitOptions& opt, const FitReport& r) {
+  if (r.blend) {
+    PrintBlend(opt, r);
+    return;
+  }
   if (opt.common.json) {
     nlohmann::json c = nlohmann::json::array();
     for (const CandidateScore& s : r.candidates) {
@@ -25,6 +68,9 @@ void PrintReport(const FitOptions& opt, const FitReport& r) {
                         {"metric", r.metric}, {"selection", r.selection}, {"folds", r.folds},
                         {"candidates", c}, {"chosen", r.chosen}, {"caution", r.caution},
                         {"head", ToHex(r.head)}};
+    if (!r.excluded.empty()) {
+      j["excluded"] = {{"partition", r.excluded}, {"rows_dropped", r.excluded_rows}};
+    }
     if (r.validation_bound) {
       const Bound& b = *r.validation_bound;
       j["validation_bound"] = {{"estimate", b.estimate}, {"lower", b.lower}, {"upper", b.upper},
@@ -35,6 +81,10 @@ void PrintReport(const FitOptions& opt, const FitReport& r) {
     return;
   }
   fmt::print("Froze model {} ({} rows), digest {}\n", r.name, r.rows, ToHex(r.model_digest));
+  if (!r.excluded.empty()) {
+    fmt::print("  excluded   partition {} ({} rows of the data dropped)\n", r.excluded,
+               r.excluded_rows);
+  }
   if (r.selection != "none") {
     fmt::print("  selection  {} ({} folds), metric {}\n", r.selection, r.folds, r.metric);
     for (size_t i = 0; i < r.candidates.size(); ++i) {
@@ -59,10 +109,13 @@ Runner SetupFit(CLI::App& app) {
   cmd->add_option("--spec", opt->spec, "Pipeline spec (TOML; see docs/pipelines.md)")->required();
   cmd->add_option("--name", opt->name, "Name of the frozen model")->required();
   cmd->add_option("--data", opt->data, "Development rows (default: the dev file written by seal)");
+  cmd->add_option("--exclude", opt->exclude,
+                  "Leave out the rows of this carved partition (`unseen carve`), e.g. a blend's");
   AddCommonOptions(cmd, &opt->common);
   return [opt, cmd]() -> Status {
     if (!cmd->parsed()) return Status::OK();
-    FitRequest req{opt->common.ledger, opt->spec, opt->name, opt->data, ActorName(opt->common)};
+    FitRequest req{opt->common.ledger,     opt->spec,   opt->name, opt->data,
+                   ActorName(opt->common), opt->exclude};
     UNSEEN_ASSIGN_OR_RETURN(FitReport report, FitModel(req));
     PrintReport(*opt, report);
     return Status::OK();

@@ -4,6 +4,7 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
+#include "harness/workflow/carve.h"
 #include "harness/workflow/ledger_state.h"
 
 namespace unseen::cli {
@@ -85,6 +86,16 @@ Runner SetupStatus(CLI::App& app) {
           j["budget_half_width"] = st.seal->budget_half_width;
           j["budget_delta"] = st.seal->budget_delta;
         }
+        UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
+        j["partitions"] = json::array();
+        for (const NamedPartition& p : parts) {
+          j["partitions"].push_back({{"name", p.name},
+                                     {"rows", p.rows.Cardinality()},
+                                     {"strategy", p.strategy},
+                                     {"seed", p.seed},
+                                     {"row_set", ToHex(p.row_set)},
+                                     {"entry", p.entry_seq}});
+        }
       }
       fmt::print("{}\n", j.dump());
       return Status::OK();
@@ -99,6 +110,11 @@ Runner SetupStatus(CLI::App& app) {
     const SealInfo& seal = *st.seal;
     fmt::print("holdout  sealed: {} rows ({} split, seed {}); dev {} rows\n", seal.holdout_rows,
                seal.strategy, seal.seed, seal.dev_rows);
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
+    for (const NamedPartition& p : parts) {
+      fmt::print("carved   {}: {} dev rows ({}, seed {})\n", p.name, p.rows.Cardinality(),
+                 p.strategy, p.seed);
+    }
     uint64_t left = seal.budget_queries > st.holdout_queries ? seal.budget_queries - st.holdout_queries : 0;
     fmt::print("queries  {} of {} used, {} remaining{}\n", st.holdout_queries, seal.budget_queries, left,
                st.budget_raises == 0 ? std::string()

@@ -1,8 +1,8 @@
 // unseen: keeps machine-learning evaluation honest. This file only wires the
 // subcommands together and maps results to exit codes (README "Exit codes").
-#include <CLI/CLI.hpp>
 #include <fmt/core.h>
 
+#include <CLI/CLI.hpp>
 #include <vector>
 
 #include "harness/cli/commands.h"
@@ -10,16 +10,16 @@
 
 int main(int argc, char** argv) {
   using namespace unseen::cli;
-  CLI::App app{"unseen: carve and seal a holdout, record every step that reads data, and "
-               "report honest holdout scores"};
+  CLI::App app{
+      "unseen: carve and seal a holdout, record every step that reads data, and "
+      "report honest holdout scores"};
   app.set_version_flag("--version", std::string("unseen ") + unseen::kVersion);
   app.require_subcommand(1);
-  std::vector<Runner> runners = {SetupKeygen(app), SetupInit(app),    SetupSeal(app),
-                                 SetupVerify(app), SetupHead(app),    SetupHistory(app),
-                                 SetupStatus(app), SetupFit(app),     SetupModels(app),
-                                 SetupPredict(app), SetupExport(app),
-                                 SetupScore(app), SetupEval(app), SetupBudget(app),
-                                 SetupBound(app)};
+  std::vector<Runner> runners = {
+      SetupKeygen(app), SetupInit(app),    SetupSeal(app),   SetupVerify(app),
+      SetupHead(app),   SetupHistory(app), SetupStatus(app), SetupFit(app),
+      SetupModels(app), SetupPredict(app), SetupExport(app), SetupScore(app),
+      SetupCarve(app),  SetupEval(app),    SetupBudget(app), SetupBound(app)};
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -18,6 +18,36 @@ struct PredictOptions {
   CommonOptions common;
   std::string model, data, out;
 };
+
+// A blend in text: its weights, intercept and each member's contribution.
+void PrintBlend(const nlohmann::json& model) {
+  const nlohmann::json& b = model.at("blend");
+  const nlohmann::json& c = b.at("contributions");
+  fmt::print("blend {} ({}, {}least squares) on partition {} ({} rows)\n",
+             model.at("name").get<std::string>(), b.at("task").get<std::string>(),
+             b.at("nonnegative").get<bool>() ? "non-negative " : "",
+             b.at("partition").at("name").get<std::string>(), b.at("rows").get<uint64_t>());
+  if (b.at("positive_class").is_string()) {
+    fmt::print("  combines each member's probability of class {}\n",
+               b.at("positive_class").get<std::string>());
+  }
+  fmt::print("  {:<20} {:>14} {:>14} {:>14}  {}\n", "member", "weight", "loss without",
+             "contribution", "model digest");
+  for (const nlohmann::json& m : b.at("members")) {
+    fmt::print("  {:<20} {:>14.8g} {:>14.8g} {:>+14.8g}  {}\n", m.at("name").get<std::string>(),
+               m.at("weight").get<double>(), m.at("loss_without").get<double>(),
+               m.at("contribution").get<double>(), m.at("model_digest").get<std::string>());
+  }
+  fmt::print("  {:<20} {:>14.8g}\n", "intercept", b.at("intercept").get<double>());
+  std::string how = c.at("selection") == "validation"
+                        ? std::string("one validation split")
+                        : std::to_string(c.at("folds").get<int>()) + "-fold cross-validation";
+  fmt::print(
+      "  {} of the blend of all members: {:.8g} ({} inside the partition, seed {});\n"
+      "  a member's contribution is the loss without it minus this\n",
+      c.at("metric").get<std::string>(), c.at("loss_all").get<double>(), how,
+      c.at("seed").get<uint64_t>());
+}
 }  // namespace
 
 Runner SetupModels(CLI::App& app) {
@@ -30,6 +60,14 @@ Runner SetupModels(CLI::App& app) {
     UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->common.ledger, LedgerMode::kReadOnly));
     if (!opt->show.empty()) {
       UNSEEN_ASSIGN_OR_RETURN(nlohmann::json model, LoadModel(*ledger, opt->show, nullptr));
+      if (!opt->common.json && model.contains("blend")) {
+        try {
+          PrintBlend(model);
+        } catch (const std::exception& e) {
+          return Status::Corruption("frozen blend " + opt->show + " is malformed: " + e.what());
+        }
+        return Status::OK();
+      }
       fmt::print("{}\n", opt->common.json ? model.dump() : model.dump(2));
       return Status::OK();
     }

@@ -104,10 +104,9 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   return g;
 }
 
-Result<MetricSample> HoldoutGuard::EvaluatePipeline(const nlohmann::json& pipeline, Metric metric,
-                                                    const RangeOptions& range) const {
-  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline fitted, FittedPipeline::FromJson(pipeline));
-  UNSEEN_ASSIGN_OR_RETURN(Predictions p, fitted.Predict(features_));
+Result<MetricSample> HoldoutGuard::EvaluateModel(const FrozenModel& model, Metric metric,
+                                                 const RangeOptions& range) const {
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, model.Predict(features_));
   return SampleMetric(metric, target_, p, static_cast<int>(source_.target.classes.size()), range);
 }
 

@@ -15,6 +15,7 @@
 
 #include "harness/evaluate/metric_bound.h"
 #include "harness/pipeline/frame.h"
+#include "harness/pipeline/frozen_model.h"
 #include "harness/workflow/ledger_state.h"
 #include "storage/ledger.h"
 #include "storage/seal_crypto.h"
@@ -42,12 +43,13 @@ class HoldoutGuard {
 
   uint64_t rows() const { return static_cast<uint64_t>(target_.size()); }
 
-  // Applies a frozen pipeline (the `pipeline` object of a model's JSON) to
-  // the holdout and reduces its predictions to `metric`'s sample.
+  // Applies a frozen model (a pipeline or a blend, loaded beforehand so
+  // that the guard never reads the ledger while it holds rows) to the
+  // holdout and reduces its predictions to `metric`'s sample.
   // InvalidArgument when the model cannot be applied (missing columns) or
   // the metric does not fit its predictions.
-  Result<MetricSample> EvaluatePipeline(const nlohmann::json& pipeline, Metric metric,
-                                        const RangeOptions& range) const;
+  Result<MetricSample> EvaluateModel(const FrozenModel& model, Metric metric,
+                                     const RangeOptions& range) const;
 
   // Runs an external predictor on the holdout features and samples its
   // predictions. InvalidArgument (nothing revealed) for a command that

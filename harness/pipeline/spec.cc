@@ -9,6 +9,7 @@
 #include <sstream>
 #include <utility>
 
+#include "harness/pipeline/blend.h"
 #include "harness/pipeline/learner.h"
 #include "harness/pipeline/transform.h"
 
@@ -291,7 +292,10 @@ std::vector<Axis> Axes(const PipelineSpec& spec) {
     CollectAxes(spec.transforms[i].params, static_cast<int>(i),
                 "transform[" + std::to_string(i) + "]", &path, &axes);
   }
-  CollectAxes(spec.learner.params, -1, "learner", &path, &axes);
+  // A blend has no grid: its `members` list is one value (ReadBlendSpec
+  // refuses arrays anywhere else).
+  if (spec.learner.kind != kBlendKind)
+    CollectAxes(spec.learner.params, -1, "learner", &path, &axes);
   return axes;
 }
 
@@ -302,6 +306,8 @@ void SetAt(json* params, const std::vector<std::string>& path, const json& value
 }
 
 }  // namespace
+
+std::string SpecWhere(const std::string& file, SpecPosition pos) { return Where(file, pos); }
 
 const std::vector<std::string>& SpecMetrics() {
   static const auto* metrics = new std::vector<std::string>{
@@ -498,7 +504,8 @@ Status CheckKinds(const PipelineSpec& spec) {
     return ErrorAt(spec.path, {spec.learner.line, spec.learner.column},
                    "the learner has no kind; expected [learner] kind = \"...\"");
   }
-  const std::vector<std::string>& learners = LearnerKinds();
+  std::vector<std::string> learners = LearnerKinds();
+  learners.push_back(kBlendKind);
   if (std::find(learners.begin(), learners.end(), spec.learner.kind) == learners.end()) {
     return ErrorAt(spec.path, KeyOrTable(spec.learner, "kind"),
                    "unknown learner kind '" + spec.learner.kind + "'; expected one of " +
@@ -534,6 +541,7 @@ Status CheckCandidate(const PipelineSpec& spec, const Candidate& c) {
 Status ValidateSpec(const PipelineSpec& spec, const std::vector<std::string>& columns) {
   try {
     UNSEEN_RETURN_IF_ERROR(CheckKinds(spec));
+    if (spec.learner.kind == kBlendKind) return ReadBlendSpec(spec).status();
     UNSEEN_RETURN_IF_ERROR(CheckColumns(spec, columns));
     uint64_t size = GridSize(spec);
     if (size > kMaxSpecCandidates) {

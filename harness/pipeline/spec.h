@@ -22,6 +22,10 @@ struct SpecPosition {
   int column = 0;
 };
 
+// "FILE:LINE:COL: " to start a message about `pos` in a spec ("FILE:LINE: "
+// without a column, "FILE:1:1: " when the position is unknown).
+std::string SpecWhere(const std::string& file, SpecPosition pos);
+
 // One [[transform]] or the [learner]: its kind and parameters. A parameter
 // may hold an array (a grid axis; for `columns`, a list of lists) and a
 // nested table becomes a nested JSON object (a learner's `base`).
@@ -78,6 +82,7 @@ Result<PipelineSpec> ParseSpecText(const std::string& text, const std::string& n
 // The cartesian product of every grid axis. Axes are ordered transform[0],
 // transform[1], ..., then the learner; within a step by key name (nested
 // keys depth-first); the last axis varies fastest. No axes: one candidate.
+// A blend spec has no axes (its `members` list is one value).
 std::vector<Candidate> ExpandGrid(const PipelineSpec& spec);
 
 // The number of candidates ExpandGrid would return (saturates at UINT64_MAX).
@@ -91,7 +96,9 @@ constexpr uint64_t kMaxSpecCandidates = 10000;
 // source's feature columns; an empty list skips that check; names that an
 // earlier onehot, poly or pca step produces are accepted). InvalidArgument
 // "NAME:LINE:COL: ..." pointing at the offending key (or the step's table
-// when no key is to blame); also for more than kMaxSpecCandidates.
+// when no key is to blame); also for more than kMaxSpecCandidates. A blend
+// spec (learner kind "blend", harness/pipeline/blend.h) is checked by
+// ReadBlendSpec instead: its members are frozen models, not learners.
 Status ValidateSpec(const PipelineSpec& spec, const std::vector<std::string>& columns);
 
 }  // namespace unseen

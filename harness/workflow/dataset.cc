@@ -213,6 +213,29 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   return out;
 }
 
+LoadedData SelectRows(const LoadedData& d, const std::vector<size_t>& rows) {
+  LoadedData out;
+  out.path = d.path;
+  out.file_sha256 = d.file_sha256;
+  out.labelled = d.labelled;
+  out.features = d.features.Select(rows);
+  out.target.resize(d.labelled ? static_cast<Eigen::Index>(rows.size()) : 0);
+  std::vector<uint32_t> read;
+  for (size_t i = 0; i < rows.size(); ++i) {
+    size_t r = rows[i];
+    if (d.labelled)
+      out.target(static_cast<Eigen::Index>(i)) = d.target(static_cast<Eigen::Index>(r));
+    out.ids.push_back(d.ids[r]);
+    if (!d.groups.empty()) out.groups.push_back(d.groups[r]);
+    out.source_rows.push_back(d.source_rows[r]);
+    out.lines.push_back(d.lines[r]);
+    read.push_back(d.source_rows[r]);
+  }
+  std::sort(read.begin(), read.end());
+  out.rows_read = RowSet::FromSorted(read);
+  return out;
+}
+
 Status RecordRefusal(const std::string& ledger_path, const std::string& actor,
                      const std::string& command, const Status& reason, const std::string& details_json) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(ledger_path, LedgerMode::kReadWrite));

@@ -49,6 +49,11 @@ struct DataRefusal {
 Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& state, const std::string& path,
                             DataPurpose purpose, DataRefusal* refusal);
 
+// The data rows listed in `rows` (ascending indexes into `data`), every
+// per-row field kept in step; rows_read is recomputed from source_rows.
+// REQUIRES: data loaded with kDevRows.
+LoadedData SelectRows(const LoadedData& data, const std::vector<size_t>& rows);
+
 // Class labels of a classification source in index order.
 std::vector<std::string> ClassLabels(const SourceInfo& source);
 

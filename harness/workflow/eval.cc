@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstring>
 #include <limits>
+#include <memory>
 #include <nlohmann/json.hpp>
 #include <set>
 
@@ -69,8 +70,9 @@ json QueryKey(const std::string& digest, const std::string& metric, const std::s
 struct Query {
   std::string name, kind;
   Digest256 digest{};
-  int64_t frozen_at = 0;  // the fit entry; for external predictors, this eval
-  json model;             // frozen: the model JSON; external: its identity
+  int64_t frozen_at = 0;                // the fit entry; for external predictors, this eval
+  json model;                           // frozen: the model JSON; external: its identity
+  std::shared_ptr<FrozenModel> frozen;  // frozen models, ready to apply
   std::vector<std::string> taints;
   const PastAnswer* repeat = nullptr;
   MetricSample sample;
@@ -224,8 +226,7 @@ Result<double> TrainingMean(const Ledger& ledger, const LedgerState& st, const E
     }
     *data = std::move(*loaded);
   }
-  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline fitted, FittedPipeline::FromJson(q.model.at("pipeline")));
-  UNSEEN_ASSIGN_OR_RETURN(Predictions p, fitted.Predict((*data)->features));
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, q.frozen->Predict((*data)->features));
   UNSEEN_ASSIGN_OR_RETURN(
       MetricSample s, SampleMetric(setup.metric, (*data)->target, p,
                                    static_cast<int>(st.source.target.classes.size()), setup.range));
@@ -285,7 +286,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
     }
     Query q;
     q.name = name;
-    q.kind = "pipeline";
+    q.kind = "frozen";
     ModelSummary summary;
     auto model = LoadModel(*ledger, name, &summary);
     if (!model.ok()) return Status::InvalidArgument(model.status().message());
@@ -294,6 +295,11 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
     q.frozen_at = summary.fit_entry;
     UNSEEN_ASSIGN_OR_RETURN(Lineage lineage, TraceLineage(*ledger, st, summary.fit_entry, q.model));
     q.taints = lineage.taints;
+    // Loaded now, members and all: the guard must not read the ledger while it holds rows.
+    auto frozen = LoadFrozenModel(*ledger, q.model);
+    if (!frozen.ok())
+      return Status::InvalidArgument("model '" + name + "': " + frozen.status().message());
+    q.frozen = std::make_shared<FrozenModel>(std::move(*frozen));
     queries.push_back(std::move(q));
   }
   if (req.external) {
@@ -537,7 +543,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
         std::memcpy(&predictor.shuffle_seed, seed.data(), 8);
         sample = guard->EvaluateExternal(predictor, setup.metric, setup.range);
       } else {
-        sample = guard->EvaluatePipeline(q.model.at("pipeline"), setup.metric, setup.range);
+        sample = guard->EvaluateModel(*q.frozen, setup.metric, setup.range);
       }
       if (!sample.ok()) {
         return Status::InvalidArgument("model '" + q.name + "': " + sample.status().message());
@@ -663,7 +669,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
   // 6. One entry for the batch.
   json parents = json::array();
   for (const Query& q : queries) {
-    if (q.kind == "pipeline") parents.push_back(q.frozen_at);
+    if (q.kind == "frozen") parents.push_back(q.frozen_at);
   }
   std::string names_text;
   for (const Query& q : queries) names_text += (names_text.empty() ? "" : ", ") + q.name;

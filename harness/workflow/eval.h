@@ -52,7 +52,7 @@ struct EvalRequest {
 
 struct EvalAnswer {
   std::string model;
-  std::string kind;  // "pipeline" or "external"
+  std::string kind;  // "frozen" (a pipeline or a blend) or "external"
   Digest256 model_digest{};
   std::string metric, method;
   double delta = 0;

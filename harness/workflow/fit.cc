@@ -5,9 +5,12 @@
 #include <sstream>
 
 #include "harness/folds.h"
+#include "harness/pipeline/blend.h"
 #include "harness/pipeline/pipeline.h"
 #include "harness/pipeline/spec.h"
+#include "harness/workflow/carve.h"
 #include "harness/workflow/dataset.h"
+#include "harness/workflow/fit_steps.h"
 #include "harness/workflow/ledger_state.h"
 #include "storage/ledger.h"
 
@@ -53,26 +56,6 @@ Result<double> ScoreOnFold(const Candidate& c, const LoadedData& d, const std::v
                                                         t.task, t.classes));
   UNSEEN_ASSIGN_OR_RETURN(Predictions pred, p.Predict(d.features.Select(test)));
   return Score(metric, Pick(d.target, test), pred, t.classes);
-}
-
-// The source rows of each fold's test part, as row sets.
-std::vector<RowSet> FoldSets(const LoadedData& d, const std::vector<int>& fold, int k) {
-  std::vector<std::vector<uint32_t>> rows(static_cast<size_t>(k));
-  for (size_t i = 0; i < fold.size(); ++i) rows[static_cast<size_t>(fold[i])].push_back(d.source_rows[i]);
-  std::vector<RowSet> sets;
-  for (auto& r : rows) {
-    std::sort(r.begin(), r.end());
-    sets.push_back(RowSet::FromSorted(r));
-  }
-  return sets;
-}
-
-Result<std::string> ReadText(const std::string& path) {
-  std::ifstream f(path, std::ios::binary);
-  if (!f) return Status::NotFound(path + ": cannot read the spec file");
-  std::ostringstream ss;
-  ss << f.rdbuf();
-  return ss.str();
 }
 
 Status NameIsFree(const Ledger& ledger, const std::string& name) {
@@ -133,7 +116,78 @@ json ScoresJson(const FitReport& r) {
   return c;
 }
 
+// Drops the rows of the data that lie in the partition named by
+// --exclude; fills the report's excluded fields.
+Status ExcludePartition(const NamedPartition& p, LoadedData* d, FitReport* report) {
+  std::vector<size_t> keep;
+  for (size_t i = 0; i < d->source_rows.size(); ++i) {
+    if (!p.rows.Contains(d->source_rows[i])) keep.push_back(i);
+  }
+  report->excluded = p.name;
+  report->excluded_rows = d->source_rows.size() - keep.size();
+  if (keep.empty()) {
+    return Status::InvalidArgument("--exclude: every row of " + d->path + " lies in partition '" +
+                                   p.name + "'; nothing is left to fit on");
+  }
+  *d = SelectRows(*d, keep);
+  return Status::OK();
+}
+
 }  // namespace
+
+namespace internal {
+
+std::vector<RowSet> FoldRowSets(const LoadedData& d, const std::vector<int>& fold, int k) {
+  std::vector<std::vector<uint32_t>> rows(static_cast<size_t>(k));
+  for (size_t i = 0; i < fold.size(); ++i)
+    rows[static_cast<size_t>(fold[i])].push_back(d.source_rows[i]);
+  std::vector<RowSet> sets;
+  for (auto& r : rows) {
+    std::sort(r.begin(), r.end());
+    sets.push_back(RowSet::FromSorted(r));
+  }
+  return sets;
+}
+
+Result<std::string> ReadSpecBytes(const std::string& path) {
+  std::ifstream f(path, std::ios::binary);
+  if (!f) return Status::NotFound(path + ": cannot read the spec file");
+  std::ostringstream ss;
+  ss << f.rdbuf();
+  return ss.str();
+}
+
+Status RefuseFit(const FitRequest& req, Ledger* ledger, const Status& reason, const json& details) {
+  ledger->Rollback();
+  UNSEEN_RETURN_IF_ERROR(RecordRefusal(req.ledger_path, req.actor, "fit", reason, details.dump()));
+  return reason;
+}
+
+Result<LoadedData> LoadFitData(const FitRequest& req, const LedgerState& st, Ledger* ledger,
+                               std::string* data) {
+  *data = req.data_path.empty() ? st.seal->dev_out_path : req.data_path;
+  DataRefusal refusal;
+  auto loaded = LoadData(*ledger, st, *data, DataPurpose::kDevRows, &refusal);
+  if (loaded.ok() || !loaded.status().IsRefused()) return loaded;
+  json details = {{"data", *data},
+                  {"holdout_rows", refusal.holdout_rows},
+                  {"not_dev_rows", refusal.not_dev_rows},
+                  {"first_lines", refusal.first_lines},
+                  {"model", req.name}};
+  return RefuseFit(req, ledger, loaded.status(), details);
+}
+
+json FrozenModelHeader(const LedgerState& st, const std::string& name) {
+  return {{"format", 1},
+          {"name", name},
+          {"ledger_id", st.ledger_id},
+          {"source_sha256", ToHex(st.source.file_sha256)},
+          {"target",
+           {{"column", st.source.columns[*st.source.ColumnOf(ColumnRole::kTarget)].name},
+            {"classes", ClassLabels(st.source)}}}};
+}
+
+}  // namespace internal
 
 Status CheckModelName(const std::string& name) {
   bool ok = !name.empty() && name.size() <= 64 && std::isalnum(static_cast<unsigned char>(name[0]));
@@ -155,6 +209,7 @@ Result<FitReport> FitModel(const FitRequest& req) {
 
   // 1. The spec, checked against the source's feature columns.
   UNSEEN_ASSIGN_OR_RETURN(PipelineSpec spec, ParseSpecFile(req.spec_path));
+  if (spec.learner.kind == kBlendKind) return internal::FitBlend(req, st, spec, ledger.get());
   std::vector<std::string> features;
   for (const ColumnInfo& c : st.source.columns) {
     if (c.role == ColumnRole::kFeature) features.push_back(c.name);
@@ -171,24 +226,21 @@ Result<FitReport> FitModel(const FitRequest& req) {
                                    ": " + metric_ok.message());
   }
 
-  // 2. The data, matched against the sealed holdout before any use.
-  std::string data = req.data_path.empty() ? st.seal->dev_out_path : req.data_path;
-  DataRefusal refusal;
-  auto loaded = LoadData(*ledger, st, data, DataPurpose::kDevRows, &refusal);
-  if (!loaded.ok()) {
-    if (!loaded.status().IsRefused()) return loaded.status();
-    ledger->Rollback();
-    json details = {{"data", data}, {"holdout_rows", refusal.holdout_rows},
-                    {"not_dev_rows", refusal.not_dev_rows}, {"first_lines", refusal.first_lines},
-                    {"model", req.name}};
-    UNSEEN_RETURN_IF_ERROR(RecordRefusal(req.ledger_path, req.actor, "fit", loaded.status(), details.dump()));
-    return loaded.status();
+  // 2. The data, matched against the sealed holdout before any use, less
+  // the rows of an excluded partition.
+  std::optional<NamedPartition> excluded;
+  if (!req.exclude.empty()) {
+    Result<NamedPartition> p = FindPartition(*ledger, req.exclude);
+    if (!p.ok()) return Status::NotFound("--exclude: " + p.status().message());
+    excluded = std::move(*p);
   }
-  LoadedData& d = *loaded;
+  std::string data;
+  UNSEEN_ASSIGN_OR_RETURN(LoadedData d, internal::LoadFitData(req, st, ledger.get(), &data));
+  FitReport report;
+  if (excluded) UNSEEN_RETURN_IF_ERROR(ExcludePartition(*excluded, &d, &report));
 
   // 3. Selection among the candidates.
   std::vector<Candidate> cands = ExpandGrid(spec);
-  FitReport report;
   report.name = req.name;
   report.rows = d.lines.size();
   report.metric = MetricName(metric);
@@ -225,37 +277,39 @@ Result<FitReport> FitModel(const FitRequest& req) {
   // 4. The chosen candidate, refitted on every row read, frozen.
   const Candidate& chosen = cands[report.chosen];
   UNSEEN_ASSIGN_OR_RETURN(FittedPipeline final_fit, FitPipeline(chosen, d.features, d.target, t.task, t.classes));
-  json model = {{"format", 1},
-                {"name", req.name},
-                {"ledger_id", st.ledger_id},
-                {"source_sha256", ToHex(st.source.file_sha256)},
-                {"target", {{"column", st.source.columns[*st.source.ColumnOf(ColumnRole::kTarget)].name},
-                            {"classes", ClassLabels(st.source)}}},
-                {"settings", chosen.settings},
-                {"pipeline", final_fit.ToJson()}};
+  json model = internal::FrozenModelHeader(st, req.name);
+  model["settings"] = chosen.settings;
+  model["pipeline"] = final_fit.ToJson();
   UNSEEN_ASSIGN_OR_RETURN(std::string model_text, CanonicalJson(model.dump()));
   UNSEEN_ASSIGN_OR_RETURN(BlobRef model_ref, ledger->PutBlob("model", model_text));
-  UNSEEN_ASSIGN_OR_RETURN(std::string spec_text, ReadText(req.spec_path));
+  UNSEEN_ASSIGN_OR_RETURN(std::string spec_text, internal::ReadSpecBytes(req.spec_path));
   UNSEEN_ASSIGN_OR_RETURN(BlobRef spec_ref, ledger->PutBlob("spec", spec_text));
   UNSEEN_ASSIGN_OR_RETURN(BlobRef rows_ref, ledger->PutBlob("row-set", d.rows_read.Serialize()));
   report.model_digest = model_ref.digest;
 
   json parents = {st.seal->entry_seq};
+  if (excluded) parents.push_back(excluded->entry_seq);
   if (report.selection != "none") {
     std::vector<BlobRef> fold_refs = {rows_ref};
     json fold_digests = json::array();
-    for (const RowSet& s : FoldSets(d, fold, k)) {
+    for (const RowSet& s : internal::FoldRowSets(d, fold, k)) {
       UNSEEN_ASSIGN_OR_RETURN(BlobRef r, ledger->PutBlob("row-set", s.Serialize()));
       fold_refs.push_back(r);
       fold_digests.push_back(ToHex(r.digest));
     }
-    json sel = {{"model", req.name}, {"metric", report.metric}, {"selection", report.selection},
-                {"folds", k}, {"seed", seed}, {"fold_row_sets", fold_digests},
-                {"rows_read", ToHex(rows_ref.digest)}, {"candidates", ScoresJson(report)},
-                {"chosen", report.chosen}, {"parents", {st.seal->entry_seq}},
+    json sel = {{"model", req.name},
+                {"metric", report.metric},
+                {"selection", report.selection},
+                {"folds", k},
+                {"seed", seed},
+                {"fold_row_sets", fold_digests},
+                {"rows_read", ToHex(rows_ref.digest)},
+                {"candidates", ScoresJson(report)},
+                {"chosen", report.chosen},
+                {"parents", parents},
                 {"summary", "selected candidate " + std::to_string(report.chosen) + " of " +
-                            std::to_string(cands.size()) + " for " + req.name + " by " + report.selection +
-                            " " + report.metric}};
+                                std::to_string(cands.size()) + " for " + req.name + " by " +
+                                report.selection + " " + report.metric}};
     UNSEEN_ASSIGN_OR_RETURN(Entry se, ledger->Append("select", req.actor, sel.dump(), fold_refs));
     parents.push_back(se.seq);
   }
@@ -274,7 +328,17 @@ Result<FitReport> FitModel(const FitRequest& req) {
               {"summary", "froze " + req.name + " (" + chosen.learner.kind + ", " +
                           std::to_string(report.rows) + " rows, chosen from " +
                           std::to_string(cands.size()) + ")"}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry fe, ledger->Append("fit", req.actor, fit.dump(), {model_ref, spec_ref, rows_ref}));
+  std::vector<BlobRef> fit_blobs = {model_ref, spec_ref, rows_ref};
+  if (excluded) {
+    fit["excluded"] = {{"partition", excluded->name},
+                       {"entry", excluded->entry_seq},
+                       {"row_set", ToHex(excluded->row_set)},
+                       {"rows_dropped", report.excluded_rows}};
+    // Already stored by the partition entry (a no-op here); named as a blob this entry relies on.
+    UNSEEN_ASSIGN_OR_RETURN(BlobRef ex_ref, ledger->PutBlob("row-set", excluded->rows.Serialize()));
+    fit_blobs.push_back(ex_ref);
+  }
+  UNSEEN_ASSIGN_OR_RETURN(Entry fe, ledger->Append("fit", req.actor, fit.dump(), fit_blobs));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.head = fe.hash;
   return report;

@@ -1,9 +1,9 @@
 #include "harness/workflow/models.h"
 
-#include <cstdio>
 #include <fmt/core.h>
 
-#include "harness/pipeline/pipeline.h"
+#include <cstdio>
+
 #include "harness/workflow/dataset.h"
 #include "harness/workflow/ledger_state.h"
 #include "harness/workflow/staged_file.h"
@@ -65,13 +65,23 @@ Result<json> LoadModel(const Ledger& ledger, const std::string& name, ModelSumma
                           (known.empty() ? std::string("none yet") : known) + ")");
 }
 
+Result<json> LoadModelByDigest(const Ledger& ledger, const Digest256& digest) {
+  UNSEEN_ASSIGN_OR_RETURN(std::string text, ledger.GetBlob(digest));
+  json model = json::parse(text, nullptr, /*allow_exceptions=*/false);
+  if (!model.is_object()) {
+    return Status::Corruption("model blob " + ToHex(digest) + " is not a JSON object");
+  }
+  return model;
+}
+
 namespace {
 
 // Writes predictions as CSV; returns the file's SHA-256.
 Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d, const Predictions& p,
                                    const json& model) {
   std::vector<std::string> classes = model.at("target").at("classes").get<std::vector<std::string>>();
-  bool classification = model.at("pipeline").at("task") == "classification";
+  UNSEEN_ASSIGN_OR_RETURN(LearnTask task, FrozenModel::TaskOf(model));
+  bool classification = task == LearnTask::kClassification;
   std::string text = "id,prediction";
   if (classification && p.proba.size() > 0) {
     for (const std::string& c : classes) text += ",p_" + c;
@@ -97,6 +107,16 @@ Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d,
 
 }  // namespace
 
+Result<FrozenModel> LoadFrozenModel(const Ledger& ledger, const json& model) {
+  return FrozenModel::FromJson(
+      model, [&ledger](const Digest256& digest) { return LoadModelByDigest(ledger, digest); });
+}
+
+Result<Predictions> ApplyFrozenModel(const Ledger& ledger, const json& model, const Frame& x) {
+  UNSEEN_ASSIGN_OR_RETURN(FrozenModel loaded, LoadFrozenModel(ledger, model));
+  return loaded.Predict(x);
+}
+
 Result<PredictReport> PredictWithModel(const PredictRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
   UNSEEN_RETURN_IF_ERROR(ledger->Begin());
@@ -113,8 +133,7 @@ Result<PredictReport> PredictWithModel(const PredictRequest& req) {
     UNSEEN_RETURN_IF_ERROR(RecordRefusal(req.ledger_path, req.actor, "predict", loaded.status(), details.dump()));
     return loaded.status();
   }
-  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline pipeline, FittedPipeline::FromJson(model.at("pipeline")));
-  UNSEEN_ASSIGN_OR_RETURN(Predictions p, pipeline.Predict(loaded->features));
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, ApplyFrozenModel(*ledger, model, loaded->features));
   PredictReport report;
   report.rows = loaded->ids.size();
   UNSEEN_ASSIGN_OR_RETURN(report.out_sha256, WritePredictions(req.out_path, *loaded, p, model));

@@ -7,6 +7,9 @@
 #include <string>
 #include <vector>
 
+#include "harness/evaluate/metrics.h"
+#include "harness/pipeline/frame.h"
+#include "harness/pipeline/frozen_model.h"
 #include "storage/digest.h"
 #include "storage/ledger.h"
 #include "storage/status.h"
@@ -31,6 +34,26 @@ Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger);
 // The frozen model's canonical JSON, checked against its digest. NotFound
 // naming the known models if there is none of that name.
 Result<nlohmann::json> LoadModel(const Ledger& ledger, const std::string& name, ModelSummary* summary);
+
+// The frozen model stored under `digest` (its blob, checked against the
+// digest). NotFound if the ledger has no such blob; Corruption if it is not
+// a JSON object.
+Result<nlohmann::json> LoadModelByDigest(const Ledger& ledger, const Digest256& digest);
+
+// A frozen model (as LoadModel returns it) made ready to apply
+// (harness/pipeline/frozen_model.h): a blend's members are read from
+// `ledger` by the digests it recorded, recursively. Corruption if the model
+// or a member is malformed or missing.
+Result<FrozenModel> LoadFrozenModel(const Ledger& ledger, const nlohmann::json& model);
+
+// Applies a frozen model to the rows of `x`: LoadFrozenModel, then
+// FrozenModel::Predict. This is the one way a frozen model becomes
+// predictions (predict and blends use it; holdout evaluation should too):
+// an ordinary pipeline predicts through FittedPipeline, a blend combines its
+// members' scores. InvalidArgument if `x` lacks a column the model needs;
+// Corruption as LoadFrozenModel.
+Result<Predictions> ApplyFrozenModel(const Ledger& ledger, const nlohmann::json& model,
+                                     const Frame& x);
 
 struct PredictRequest {
   std::string ledger_path, model, data_path, out_path, actor;

@@ -11,7 +11,6 @@
 #include <string>
 
 #include "harness/bounds.h"
-#include "harness/pipeline/pipeline.h"
 #include "harness/workflow/models.h"
 #include "storage/ledger.h"
 #include "tests/testing/sample_data.h"
@@ -93,8 +92,6 @@ class EvalTest : public ::testing::Test {
     EXPECT_TRUE(ledger.ok());
     auto model = LoadModel(**ledger, name, nullptr);
     EXPECT_TRUE(model.ok());
-    auto pipeline = FittedPipeline::FromJson(model->at("pipeline"));
-    EXPECT_TRUE(pipeline.ok());
     auto rows = HoldoutRows();
     Frame x;
     x.columns = {FrameColumn{"a", true, {}, {}}, FrameColumn{"b", true, {}, {}}};
@@ -103,7 +100,7 @@ class EvalTest : public ::testing::Test {
       x.columns[0].num.push_back(std::stod(r[3]));
       x.columns[1].num.push_back(std::stod(r[4]));
     }
-    auto p = pipeline->Predict(x);
+    auto p = ApplyFrozenModel(**ledger, *model, x);
     EXPECT_TRUE(p.ok());
     uint64_t errors = 0;
     for (size_t i = 0; i < rows.size(); ++i) {
@@ -154,6 +151,30 @@ TEST_F(EvalTest, BatchReportsEachModelWithItsEstimateAndBound) {
   }
   EXPECT_EQ(Status()["holdout_queries"], 2);
   EXPECT_EQ(Count("eval"), 1u);
+}
+
+TEST_F(EvalTest, BlendIsEvaluatedLikeAnyFrozenModel) {
+  ASSERT_EQ(RunUnseen("carve --ledger " + Q("l") + " --name bs --fraction 0.3 --seed 5").exit_code,
+            0);
+  for (const char* name : {"m1", "m2"}) {
+    WriteFile(dir_.File(std::string(name) + ".toml"),
+              std::string("[learner]\nkind = \"") + (name[1] == '1' ? "logistic" : "knn") + "\"\n");
+    RunResult r = RunUnseen("fit --ledger " + Q("l") + " --spec " + Q(std::string(name) + ".toml") +
+                            " --name " + name + " --exclude bs");
+    ASSERT_EQ(r.exit_code, 0) << r.err;
+  }
+  WriteFile(dir_.File("blend.toml"),
+            "[learner]\nkind = \"blend\"\nmembers = [\"m1\", \"m2\"]\npartition = \"bs\"\n");
+  RunResult fit =
+      RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("blend.toml") + " --name mix");
+  ASSERT_EQ(fit.exit_code, 0) << fit.err;
+  RunResult r = Eval("mix m1");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json a = json::parse(r.out)[0];
+  EXPECT_EQ(a["kind"], "frozen");
+  EXPECT_TRUE(a["taints"].empty());
+  auto [errors, n] = HoldoutErrors("mix");
+  EXPECT_NEAR(a["estimate"].get<double>(), std::round(1000.0 * errors / n) / 1000, 1e-12);
 }
 
 TEST_F(EvalTest, TextOutputNamesTheCaution) {

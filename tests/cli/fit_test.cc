@@ -167,6 +167,56 @@ TEST_F(FitTest, HoldoutCopiedInUnderAnotherNameIsRefused) {
   EXPECT_EQ(History().back()["body"]["command"], "predict");
 }
 
+TEST_F(FitTest, BlendFittedOnItsMembersTrainingRowsIsRefused) {
+  // Both members read every dev row; the blend's partition is carved afterwards.
+  ASSERT_EQ(Fit("m1").exit_code, 0);
+  WriteFile(dir_.File("knn.toml"), "[learner]\nkind = \"knn\"\nk = 9\n");
+  auto fit_knn = [&](const std::string& name, const std::string& extra) {
+    return RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("knn.toml") + " --name " + name +
+                     " " + extra);
+  };
+  ASSERT_EQ(fit_knn("m2", "").exit_code, 0);
+  RunResult carve =
+      RunUnseen("carve --json --ledger " + Q("l") + " --name blendset --fraction 0.3 --seed 4");
+  ASSERT_EQ(carve.exit_code, 0) << carve.err;
+  const uint64_t partition_rows = json::parse(carve.out)["rows"].get<uint64_t>();
+  auto blend = [&](const std::string& name, const std::string& a, const std::string& b) {
+    WriteFile(dir_.File("blend.toml"), "[learner]\nkind = \"blend\"\nmembers = [\"" + a + "\", \"" +
+                                           b +
+                                           "\"]\npartition = \"blendset\"\n[select]\nfolds = 3\n");
+    return RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("blend.toml") + " --name " + name);
+  };
+  const size_t entries = History().size();
+  RunResult r = blend("leaky", "m1", "m2");
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("member 'm1' was fitted on " + std::to_string(partition_rows) +
+                       " of its rows (first source rows: "),
+            std::string::npos)
+      << r.err;
+  EXPECT_NE(r.err.find("member 'm2' was fitted on"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("fit --exclude blendset"), std::string::npos) << r.err;
+  // One refusal entry, naming each member, its overlap and a few of the rows.
+  json h = History();
+  ASSERT_EQ(h.size(), entries + 1);
+  json refusal = h.back()["body"];
+  EXPECT_EQ(h.back()["kind"], "refusal");
+  EXPECT_EQ(refusal["command"], "fit");
+  EXPECT_EQ(refusal["details"]["partition"], "blendset");
+  ASSERT_EQ(refusal["details"]["members"].size(), 2u);
+  EXPECT_EQ(refusal["details"]["members"][0]["rows_in_partition"], partition_rows);
+  EXPECT_EQ(refusal["details"]["members"][0]["first_rows"].size(), 5u);
+  EXPECT_EQ(json::parse(RunUnseen("models --json --ledger " + Q("l")).out).size(), 2u);
+  // Members refitted without the partition pass the guard.
+  ASSERT_EQ(Fit("m1x", "--exclude blendset").exit_code, 0);
+  ASSERT_EQ(fit_knn("m2x", "--exclude blendset").exit_code, 0);
+  RunResult ok = blend("clean", "m1x", "m2x");
+  EXPECT_EQ(ok.exit_code, 0) << ok.err;
+  // One leaky member is enough to refuse.
+  RunResult mixed = blend("half", "m1x", "m2");
+  EXPECT_EQ(mixed.exit_code, 1) << mixed.err;
+  EXPECT_EQ(mixed.err.find("member 'm1x'"), std::string::npos) << mixed.err;
+}
+
 TEST_F(FitTest, RowsThatAreNotDevRowsAreRefused) {
   WriteFile(dir_.File("other.csv"), testing::SampleCsv(50, 5, 77));
   RunResult r = Fit("other", "--data " + Q("other.csv"));
