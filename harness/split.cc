@@ -69,10 +69,21 @@ SplitResult Collect(const Sides& side, uint64_t requested) {
   SplitResult result;
   result.requested_holdout = requested;
   const uint64_t holdout = static_cast<uint64_t>(std::count(side.begin(), side.end(), 1));
-  result.holdout.reserve(holdout);
-  result.dev.reserve(side.size() - holdout);
+  result.holdout.resize(holdout);
+  result.dev.resize(side.size() - holdout);
+  // Without a branch per row: the sides of a random split follow no pattern. Each row is
+  // written to both lists and kept by the one whose count advances; both have a slot to spare
+  // except at their ends, where the other list's write is the one that lands.
+  uint32_t* const h = result.holdout.data();
+  uint32_t* const d = result.dev.data();
+  size_t nh = 0, nd = 0;
   for (size_t row = 0; row < side.size(); ++row) {
-    (side[row] ? result.holdout : result.dev).push_back(static_cast<uint32_t>(row));
+    const uint32_t r = static_cast<uint32_t>(row);
+    const size_t in_holdout = side[row] != 0;
+    if (nh < holdout) h[nh] = r;
+    if (nd < side.size() - holdout) d[nd] = r;
+    nh += in_holdout;
+    nd += 1 - in_holdout;
   }
   return result;
 }

@@ -2,43 +2,19 @@
 
 #include <errno.h>
 #include <fcntl.h>
-#include <openssl/evp.h>
 #include <string.h>
 #include <unistd.h>
 
-#include <cstdlib>
+#include <algorithm>
+#include <cstring>
 #include <vector>
+
+#include "storage/sha256_compress.h"
 
 namespace unseen {
 namespace {
 
 constexpr size_t kFileChunk = 1 << 20;  // Sha256File reads 1 MiB at a time
-
-// The SHA-256 implementation, fetched from the default provider once per
-// process. Fetching is the expensive part of EVP; every context reuses it.
-const EVP_MD* Sha256Md() {
-  static const EVP_MD* md = [] {
-    EVP_MD* m = EVP_MD_fetch(nullptr, "SHA256", nullptr);
-    if (m == nullptr) std::abort();  // the default provider always has SHA-256
-    return m;
-  }();
-  return md;
-}
-
-EVP_MD_CTX* NewSha256Ctx() {
-  EVP_MD_CTX* ctx = EVP_MD_CTX_new();
-  if (ctx == nullptr || EVP_DigestInit_ex2(ctx, Sha256Md(), nullptr) != 1) std::abort();
-  return ctx;
-}
-
-// Writes the digest and re-initialises `ctx` for the next message.
-// Re-initialising with the same EVP_MD keeps the provider context, so this
-// does not allocate.
-void FinishAndReset(EVP_MD_CTX* ctx, Digest256* out) {
-  unsigned int len = 0;
-  if (EVP_DigestFinal_ex(ctx, out->data(), &len) != 1 || len != out->size()) std::abort();
-  if (EVP_DigestInit_ex2(ctx, nullptr, nullptr) != 1) std::abort();
-}
 
 int HexValue(char c) {
   if (c >= '0' && c <= '9') return c - '0';
@@ -96,36 +72,65 @@ RowDigest TruncateToRowDigest(const Digest256& d) {
   return r;
 }
 
-struct Sha256::Impl {
-  Impl() : ctx(NewSha256Ctx()) {}
-  ~Impl() { EVP_MD_CTX_free(ctx); }
-  Impl(const Impl&) = delete;
-  Impl& operator=(const Impl&) = delete;
-  EVP_MD_CTX* ctx;
-};
-
-Sha256::Sha256() : impl_(std::make_unique<Impl>()) {}
-Sha256::~Sha256() = default;
-Sha256::Sha256(Sha256&&) noexcept = default;
-Sha256& Sha256::operator=(Sha256&&) noexcept = default;
+Sha256::Sha256() { std::memcpy(state_, internal::kSha256Initial, sizeof state_); }
 
 void Sha256::Update(const void* data, size_t n) {
-  if (n == 0) return;
-  if (EVP_DigestUpdate(impl_->ctx, data, n) != 1) std::abort();
+  const auto* p = static_cast<const uint8_t*>(data);
+  length_ += n;
+  if (buffered_ > 0) {
+    const size_t take = std::min(n, sizeof buffer_ - buffered_);
+    std::memcpy(buffer_ + buffered_, p, take);
+    buffered_ += take;
+    p += take;
+    n -= take;
+    if (buffered_ < sizeof buffer_) return;
+    internal::Sha256Compress(state_, buffer_, 1);
+    buffered_ = 0;
+  }
+  if (n >= 64) {
+    internal::Sha256Compress(state_, p, n / 64);
+    p += n / 64 * 64;
+    n %= 64;
+  }
+  if (n > 0) std::memcpy(buffer_, p, n);
+  buffered_ = n;
 }
 
 Digest256 Sha256::Finish() {
+  // FIPS 180-4 section 5.1.1: 0x80, zeros, then the message length in bits.
+  const uint64_t bits = length_ * 8;
+  uint8_t pad[72] = {0x80};
+  const size_t zeros = (buffered_ < 56 ? 56 : 120) - buffered_;
+  for (int i = 0; i < 8; ++i) pad[zeros + i] = static_cast<uint8_t>(bits >> (56 - 8 * i));
+  Update(pad, zeros + 8);
   Digest256 d;
-  FinishAndReset(impl_->ctx, &d);
+  for (int i = 0; i < 8; ++i) {
+    d[4 * i] = static_cast<uint8_t>(state_[i] >> 24);
+    d[4 * i + 1] = static_cast<uint8_t>(state_[i] >> 16);
+    d[4 * i + 2] = static_cast<uint8_t>(state_[i] >> 8);
+    d[4 * i + 3] = static_cast<uint8_t>(state_[i]);
+  }
+  std::memcpy(state_, internal::kSha256Initial, sizeof state_);
+  buffered_ = 0;
+  length_ = 0;
   return d;
 }
 
-Digest256 Sha256Of(std::string_view data) {
-  // One context per thread, kept for the thread's life: EVP_Digest() would
-  // allocate and free a context on every call, which dominates tiny rows.
-  thread_local Sha256 hasher;
-  hasher.Update(data);
-  return hasher.Finish();
+Digest256 Sha256Of(std::string_view data) { return Sha256Of(data.data(), data.size()); }
+
+Digest256 Sha256Of(const void* data, size_t n) {
+  Digest256 d;
+  internal::Sha256OneShot(data, n, d.data());
+  return d;
+}
+
+void Sha256OfTwo(std::string_view a, std::string_view b, Digest256* da, Digest256* db) {
+  if (a.size() == b.size()) {
+    internal::Sha256OneShot2(a.data(), b.data(), a.size(), da->data(), db->data());
+  } else {
+    internal::Sha256OneShot(a.data(), a.size(), da->data());
+    internal::Sha256OneShot(b.data(), b.size(), db->data());
+  }
 }
 
 Result<FileDigest> Sha256File(const std::string& path) {

@@ -1,11 +1,12 @@
 #include "storage/ledger.h"
 
+#include <SQLiteCpp/SQLiteCpp.h>
 #include <fcntl.h>
+#include <sqlite3.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include <SQLiteCpp/SQLiteCpp.h>
-
+#include <algorithm>
 #include <cerrno>
 #include <cstdlib>
 #include <cstring>
@@ -55,10 +56,6 @@ namespace internal {
 
 // "UNSN": marks the SQLite file as an unseen ledger. Written to disk.
 const int kApplicationId = 0x554E534E;
-
-std::string BlobText(const void* data, int size) {
-  return std::string(static_cast<const char*>(data), static_cast<size_t>(size));
-}
 
 bool DigestFromColumn(const SQLite::Column& col, Digest256* out) {
   if (col.getBytes() != 32) return false;
@@ -261,10 +258,26 @@ Result<BlobRef> Ledger::PutBlob(std::string_view kind, std::string_view data) {
 
 Result<std::string> Ledger::GetBlob(const Digest256& digest) const {
   try {
-    SQLite::Statement q(*impl_->db, "SELECT data FROM blobs WHERE digest = ?");
+    SQLite::Statement q(*impl_->db, "SELECT rowid, length(data) FROM blobs WHERE digest = ?");
     q.bind(1, digest.data(), 32);
     if (!q.executeStep()) return Status::NotFound("blob " + ToHex(digest) + " is not in the ledger");
-    std::string data = BlobText(q.getColumn(0).getBlob(), q.getColumn(0).getBytes());
+    // Read straight into the result: selecting the column would first assemble the whole blob
+    // in SQLite's memory and then copy it (twice the memory for the digest lists, 16 bytes a row).
+    const int64_t rowid = q.getColumn(0).getInt64();
+    const int64_t size = q.getColumn(1).getInt64();
+    std::string data(static_cast<size_t>(size), '\0');
+    sqlite3_blob* handle = nullptr;
+    int rc = sqlite3_blob_open(impl_->db->getHandle(), "main", "blobs", "data", rowid, 0, &handle);
+    for (int64_t at = 0; rc == SQLITE_OK && at < size;) {
+      const int n = static_cast<int>(std::min<int64_t>(size - at, int64_t{1} << 30));
+      rc = sqlite3_blob_read(handle, data.data() + at, n, static_cast<int>(at));
+      at += n;
+    }
+    if (handle != nullptr) sqlite3_blob_close(handle);
+    if (rc != SQLITE_OK) {
+      return Status::IOError(path_ + ": cannot read blob " + ToHex(digest) + ": " +
+                             sqlite3_errstr(rc));
+    }
     if (Sha256Of(data) != digest) {
       return Status::Corruption("blob " + ToHex(digest) + ": its bytes do not match its digest");
     }

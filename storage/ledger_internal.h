@@ -16,7 +16,6 @@
 namespace unseen {
 namespace internal {
 
-std::string BlobText(const void* data, int size);
 bool DigestFromColumn(const SQLite::Column& col, Digest256* out);
 Digest256 ChainHash(const Digest256& prev, std::string_view body);
 std::vector<std::string> SchemaRows(SQLite::Database& db);

@@ -31,6 +31,14 @@ class MerkleBuilder {
 
   void AddLeaf(const void* data, size_t n);
   void AddLeaf(std::string_view data) { AddLeaf(data.data(), data.size()); }
+  // Adds `count` leaves of `leaf_size` bytes each, stored back to back at
+  // `data`: the same result as AddLeaf() on each in turn, but perfect
+  // subtrees are hashed level by level, two hashes at a time.
+  void AddLeaves(const void* data, size_t leaf_size, size_t count);
+  // Adds the 2^height leaves of a perfect subtree by its root (a Root() of a
+  // builder given just those leaves), as if they had been added one by one.
+  // REQUIRES: size() is a multiple of 2^height.
+  void AddSubtree(const Digest256& root, int height) { PushSubtree(root, height); }
 
   // The Merkle Tree Hash of the leaves added so far.
   Digest256 Root() const;
@@ -40,9 +48,13 @@ class MerkleBuilder {
  private:
   // Perfect-subtree roots, leftmost first; their sizes are the set bits of
   // size_, from the highest down.
+  // Adds the root of a perfect subtree of 2^height leaves. REQUIRES: size_ is
+  // a multiple of 2^height.
+  void PushSubtree(const Digest256& root, int height);
+
   std::vector<Digest256> stack_;
   uint64_t size_ = 0;
-  Sha256 hasher_;  // reused for every leaf and node
+  std::vector<Digest256> level_;  // AddLeaves() scratch
 };
 
 // The Merkle Tree Hash of `leaves`, computed by the plain recursive

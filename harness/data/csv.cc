@@ -11,7 +11,6 @@
 #endif
 
 #include <algorithm>
-#include <charconv>
 #include <cstdio>
 #include <cstring>
 #include <exception>
@@ -26,7 +25,11 @@ namespace {
 // Consumed pages are handed back to the kernel each time this many bytes lie behind the cursor.
 // A file-backed mapping counts toward resident memory as pages are touched, so without this a
 // full pass would leave the whole file resident.
-constexpr uint64_t kReleaseBytes = uint64_t{32} << 20;
+constexpr uint64_t kReleaseBytes = uint64_t{16} << 20;
+// ForEachRecord() keeps this many bytes behind the cursor mapped, for callbacks that hand views
+// of the records to another thread (which may lag by less than this). A page released while a
+// consumer still needs it would be read in again and then stay mapped, behind the release point.
+constexpr uint64_t kReleaseLag = uint64_t{16} << 20;
 constexpr size_t kNoLimit = std::numeric_limits<size_t>::max();
 
 // Length of the well-formed UTF-8 sequence at p, whose first byte is >= 0x80, or 0 when it is
@@ -577,10 +580,13 @@ Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn)
       record.line = parser.record_line();
       record.offset = parser.record_begin();
       record.raw = parser.raw();
+      record.raw_line = std::string_view(record.raw.data(), parser.pos() - record.offset);
       record.fields = &parser.fields();
       status = fn(record);
       if (!status.ok()) break;
-      if (parser.pos() - released >= kReleaseBytes) Release(parser.pos(), &released);
+      if (parser.pos() - released >= kReleaseBytes + kReleaseLag) {
+        Release(parser.pos() - kReleaseLag, &released);
+      }
     }
     Release(size_, &released);
     return status;
@@ -612,6 +618,18 @@ Status CsvFile::ForEachChunk(size_t chunk_bytes,
   }
   Release(size_, &released);
   return status;
+}
+
+Result<FileDigest> CsvFile::Sha256() const {
+  unseen::Sha256 hasher;
+  FileDigest out;
+  UNSEEN_RETURN_IF_ERROR(ForEachChunk(0, [&](std::string_view chunk) {
+    hasher.Update(chunk);
+    out.size += chunk.size();
+    return Status::OK();
+  }));
+  out.sha256 = hasher.Finish();
+  return out;
 }
 
 void CsvFile::LineOf(uint64_t offset, uint64_t* line, uint64_t* line_start) const {
@@ -651,66 +669,6 @@ std::string CsvFile::Location(uint64_t offset) const {
 
 uint64_t CsvFile::FieldOffset(const CsvRecord& record, size_t column) const {
   return record.offset + FieldOffsetIn(record.raw, options_.delimiter, column);
-}
-
-bool IsMissing(std::string_view cell) { return cell.empty() || cell == "NA" || cell == "NaN"; }
-
-namespace {
-
-// Decimal exponent of the leading significant digit of a from_chars-valid number (sign already
-// removed), or 0 when every digit is zero. Only its sign matters: it tells an underflow (the
-// value is tiny) from an overflow when from_chars reports a value out of range.
-long LeadingDigitExponent(std::string_view s) {
-  long position = -1;  // decimal exponent of the digit being looked at, before the exponent part
-  size_t i = 0;
-  size_t int_digits = 0;
-  while (i < s.size() && s[i] >= '0' && s[i] <= '9') ++int_digits, ++i;
-  long lead = 0;
-  bool found = false;
-  for (size_t k = 0; k < int_digits && !found; ++k) {
-    if (s[k] != '0') lead = static_cast<long>(int_digits - k) - 1, found = true;
-  }
-  if (i < s.size() && s[i] == '.') {
-    ++i;
-    for (; i < s.size() && s[i] >= '0' && s[i] <= '9'; ++i, --position) {
-      if (!found && s[i] != '0') lead = position, found = true;
-    }
-  }
-  long exponent = 0;
-  if (i < s.size() && (s[i] == 'e' || s[i] == 'E')) {
-    long sign = 1;
-    ++i;
-    if (i < s.size() && (s[i] == '+' || s[i] == '-')) sign = s[i++] == '-' ? -1 : 1;
-    for (; i < s.size() && exponent < 100000; ++i) exponent = exponent * 10 + (s[i] - '0');
-    exponent *= sign;
-  }
-  return found ? lead + exponent : 0;
-}
-
-}  // namespace
-
-bool ParseNumber(std::string_view cell, double* out) {
-  std::string_view s = cell;
-  if (!s.empty() && s[0] == '+') {
-    s.remove_prefix(1);
-    if (!s.empty() && s[0] == '-') return false;  // "+-1"
-  }
-  const size_t first = !s.empty() && s[0] == '-' ? 1 : 0;
-  // from_chars also takes "inf", "nan" and "infinity"; a number starts with a digit or a point.
-  if (first >= s.size() || !((s[first] >= '0' && s[first] <= '9') || s[first] == '.')) {
-    return false;
-  }
-  double value = 0;
-  const std::from_chars_result r = std::from_chars(s.data(), s.data() + s.size(), value);
-  if (r.ptr != s.data() + s.size()) return false;
-  if (r.ec == std::errc::result_out_of_range) {
-    if (LeadingDigitExponent(s.substr(first)) >= 0) return false;  // overflow
-    value = first == 1 ? -0.0 : 0.0;                               // underflow
-  } else if (r.ec != std::errc()) {
-    return false;
-  }
-  *out = value;
-  return true;
 }
 
 }  // namespace unseen

@@ -28,6 +28,7 @@
 #include <string_view>
 #include <vector>
 
+#include "storage/digest.h"
 #include "storage/status.h"
 
 namespace unseen {
@@ -45,6 +46,8 @@ struct CsvRecord {
   uint64_t line;         // 1-based physical line on which the record starts
   uint64_t offset;       // byte offset of the record's first byte in the file
   std::string_view raw;  // the record's bytes exactly as in the file, without its line terminator
+  std::string_view raw_line;  // raw and its line terminator as in the file: LF, CRLF, or none
+                              // (the last record of a file without a final line end)
   const std::vector<std::string_view>* fields;  // unescaped field values, one per header column
 };
 
@@ -93,6 +96,10 @@ class CsvFile {
   // ragged row ("expected N fields, found M"), or invalid UTF-8 (pointing at the first byte of
   // the ill-formed sequence). Records before the error have been passed to `fn`. Exceptions
   // thrown by `fn` are caught and returned as Internal. May be called any number of times.
+  // record.raw and record.raw_line view the file's mapping (or FromBytes data) and stay
+  // readable while the CsvFile lives, so `fn` may hand them to another thread. Pages more than
+  // 16 MiB behind the cursor are returned to the kernel (and read in again if touched): a
+  // thread that stays less than 16 MiB behind keeps resident memory bounded.
   Status ForEachRecord(const std::function<Status(const CsvRecord&)>& fn) const;
 
   // Calls `fn` with the whole file (byte order mark included) as consecutive chunks of at most
@@ -100,6 +107,11 @@ class CsvFile {
   // or copying a file of any size. The view is valid only during the call. Returns OK, or the
   // first non-OK Status from `fn`.
   Status ForEachChunk(size_t chunk_bytes, const std::function<Status(std::string_view)>& fn) const;
+
+  // The SHA-256 and size of the whole file (byte order mark included), hashed from the mapping
+  // with bounded resident memory: the same bytes the records are read from, with no copy.
+  // Internal on an exception (none is expected).
+  Result<FileDigest> Sha256() const;
 
   // "FILE:LINE:COL" for a byte offset (an offset past the end means the end of the file). LINE
   // is 1-based and counts LF (CRLF is one line end; LFs inside quoted fields count too); COL is
@@ -142,7 +154,9 @@ class CsvFile {
 };
 
 // True for the missing-value spellings "", "NA" and "NaN" (exactly these, case-sensitive).
-bool IsMissing(std::string_view cell);
+inline bool IsMissing(std::string_view cell) {
+  return cell.empty() || cell == "NA" || cell == "NaN";
+}
 
 // Parses `cell` as a decimal number and stores it in *out. Returns true only when the whole cell
 // is one number in std::from_chars general format (digits, optional '.', optional exponent),

@@ -1,16 +1,20 @@
 #include "harness/data/source_scan.h"
 
 #include <algorithm>
+#include <array>
 #include <charconv>
 #include <cmath>
-#include <array>
 #include <condition_variable>
+#include <cstring>
 #include <future>
+#include <map>
+#include <memory>
 #include <mutex>
 #include <thread>
 #include <unordered_map>
 
 #include "harness/data/row_digest.h"
+#include "harness/data/scan_batches.h"
 #include "storage/merkle.h"
 
 namespace unseen {
@@ -59,12 +63,55 @@ Result<RoleColumns> ResolveRoles(const CsvFile& csv, const SourceRoles& roles,
 // Per-column and target statistics gathered while streaming.
 struct Tally {
   std::vector<uint64_t> numeric, missing;
-  std::unordered_map<std::string, uint64_t> labels;
+  internal::LabelTally labels;
   bool target_all_numeric = true, target_all_integer = true;
   double tmin = INFINITY, tmax = -INFINITY, tsum = 0;
-  uint64_t first_text_target_offset = UINT64_MAX;  // for the regression error
   std::vector<std::pair<uint64_t, uint64_t>> id_hashes;  // (hash of id, record offset)
 };
+
+// Copies record `r` into `batch`: its bytes whole, and the bounds of each
+// field in them (an unescaped quoted field, which lives outside the record's
+// bytes, is copied on its own).
+void AddToBatch(const CsvRecord& r, internal::ScanBatch* batch) {
+  const size_t base = batch->bytes.size();
+  batch->bytes.append(r.raw.data(), r.raw.size());
+  const char* const raw = r.raw.data();
+  for (std::string_view f : *r.fields) {
+    size_t begin;
+    if (f.data() >= raw && f.data() + f.size() <= raw + r.raw.size()) {
+      begin = base + static_cast<size_t>(f.data() - raw);
+    } else {
+      begin = batch->bytes.size();
+      batch->bytes.append(f.data(), f.size());
+    }
+    batch->bounds.push_back(begin);
+    batch->bounds.push_back(begin + f.size());
+  }
+}
+
+// Adds a batch's results to the scan, in batch order.
+void MergeBatch(const internal::ScanBatch& batch, const internal::ScanResult& r,
+                MerkleBuilder* merkle, SourceScan* scan, Tally* t) {
+  scan->row_digests.insert(scan->row_digests.end(), r.row_digests.begin(), r.row_digests.end());
+  scan->content_digests.insert(scan->content_digests.end(), r.content_digests.begin(),
+                               r.content_digests.end());
+  // A full batch that starts at a multiple of its size is a perfect subtree.
+  if (batch.rows == internal::kScanBatchRows && merkle->size() % internal::kScanBatchRows == 0) {
+    merkle->AddSubtree(r.subtree_root, internal::kScanBatchHeight);
+  } else {
+    merkle->AddLeaves(r.row_digests.data(), sizeof(RowDigest), r.row_digests.size());
+  }
+  for (size_t c = 0; c < t->numeric.size(); ++c) {
+    t->numeric[c] += r.numeric[c];
+    t->missing[c] += r.missing[c];
+  }
+  t->labels.Merge(r.labels, kMaxClasses);
+  t->target_all_numeric = t->target_all_numeric && r.target_all_numeric;
+  t->target_all_integer = t->target_all_integer && r.target_all_integer;
+  t->tmin = std::min(t->tmin, r.tmin);
+  t->tmax = std::max(t->tmax, r.tmax);
+  for (double v : r.target_values) t->tsum += v;  // row order, as one reader would add them
+}
 
 uint64_t Fnv1a(std::string_view s) {
   uint64_t h = 1469598103934665603ull;
@@ -104,95 +151,6 @@ Status CheckDuplicateIds(const CsvFile& csv, Tally* t, size_t id_col) {
   return Status::OK();
 }
 
-// Hashes canonical rows on a second thread, in order, in batches: the row
-// digest, the content digest (the row without its id cell) and the Merkle
-// tree. The parsing thread only encodes rows and hands batches over.
-class RowHasher {
- public:
-  RowHasher(bool with_content, SourceScan* out)
-      : with_content_(with_content), out_(out), worker_([this] { Work(); }) {}
-  ~RowHasher() { (void)Finish(); }
-
-  // Adds one row's canonical bytes; [id_begin, id_end) is the id cell.
-  void Add(std::string_view canonical, size_t id_begin, size_t id_end) {
-    size_t start = current_.bytes.size();
-    current_.bytes.append(canonical.data(), canonical.size());
-    current_.rows.push_back({start, start + id_begin, start + id_end, start + canonical.size()});
-    if (current_.rows.size() >= kBatchRows) Handoff();
-  }
-
-  // Hashes what is left and returns the Merkle root. Idempotent.
-  Digest256 Finish() {
-    if (worker_.joinable()) {
-      Handoff();
-      {
-        std::lock_guard<std::mutex> lock(mu_);
-        done_ = true;
-      }
-      cv_.notify_all();
-      worker_.join();
-    }
-    return merkle_.Root();
-  }
-
- private:
-  static constexpr size_t kBatchRows = 8192;
-  struct Batch {
-    std::string bytes;
-    std::vector<std::array<size_t, 4>> rows;  // start, id begin, id end, end
-  };
-
-  void Handoff() {
-    if (current_.rows.empty()) return;
-    std::unique_lock<std::mutex> lock(mu_);
-    cv_.wait(lock, [this] { return !pending_full_; });
-    std::swap(pending_, current_);
-    pending_full_ = true;
-    lock.unlock();
-    cv_.notify_all();
-    current_.bytes.clear();
-    current_.rows.clear();
-  }
-
-  void Work() {
-    Sha256 sha;
-    Batch batch;
-    for (;;) {
-      {
-        std::unique_lock<std::mutex> lock(mu_);
-        cv_.wait(lock, [this] { return pending_full_ || done_; });
-        if (!pending_full_) return;
-        std::swap(batch, pending_);
-        pending_full_ = false;
-      }
-      cv_.notify_all();
-      const char* b = batch.bytes.data();
-      for (const auto& r : batch.rows) {
-        sha.Update(b + r[0], r[3] - r[0]);
-        RowDigest d = TruncateToRowDigest(sha.Finish());
-        out_->row_digests.push_back(d);
-        merkle_.AddLeaf(d.data(), d.size());
-        if (with_content_) {
-          sha.Update(b + r[0], r[1] - r[0]);
-          sha.Update(b + r[2], r[3] - r[2]);
-          out_->content_digests.push_back(TruncateToRowDigest(sha.Finish()));
-        }
-      }
-      batch.bytes.clear();
-      batch.rows.clear();
-    }
-  }
-
-  const bool with_content_;
-  SourceScan* out_;
-  MerkleBuilder merkle_;
-  Batch current_, pending_;
-  bool pending_full_ = false, done_ = false;
-  std::mutex mu_;
-  std::condition_variable cv_;
-  std::thread worker_;  // last: starts after every member above exists
-};
-
 }  // namespace
 
 std::string CanonicalLabel(std::string_view cell) {
@@ -214,72 +172,55 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
   info.row_digest_format = kRowDigestFormat;
   UNSEEN_ASSIGN_OR_RETURN(RoleColumns rc, ResolveRoles(*csv, options.roles, &info.columns));
 
-  // The file digest runs on the second core while this thread parses.
-  auto file_digest = std::async(std::launch::async, [&path] { return Sha256File(path); });
+  // The file digest runs beside the parse, over the same mapping.
+  auto file_digest = std::async(std::launch::async, [&csv] { return csv->Sha256(); });
 
   const size_t ncol = info.columns.size();
   Tally t;
   t.numeric.assign(ncol, 0);
   t.missing.assign(ncol, 0);
-  std::string canonical, label;
   scan.row_digests.reserve(static_cast<size_t>(csv->size() / 64));
-  RowHasher hasher(rc.id.has_value(), &scan);
+  MerkleBuilder merkle;
+  internal::ScanLayout layout{ncol, rc.target, rc.id};
+  // This thread reads and checks records in order (so errors come in file order) and copies
+  // their cells into batches; two workers classify, encode, hash and tally them.
+  internal::ScanPipeline pipeline(layout, kMaxClasses, 2,
+                                  [&](const internal::ScanBatch& b, const internal::ScanResult& r) {
+                                    MergeBatch(b, r, &merkle, &scan, &t);
+                                  });
   const bool regression_declared = options.task == TaskKind::kRegression;
   uint64_t next_progress = 0;
+  std::unique_ptr<internal::ScanBatch> batch;
 
   Status parsed = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
     const auto& f = *r.fields;
-    // Each cell is classified once and feeds the tallies and the canonical bytes.
-    canonical.clear();
-    size_t id_begin = 0, id_end = 0;
-    for (size_t c = 0; c < ncol; ++c) {
-      double v = 0;
-      CellKind k = ClassifyCell(f[c], &v);
-      if (rc.id && c == *rc.id) id_begin = canonical.size();
-      AppendClassifiedCell(k, v, f[c], &canonical);
-      if (rc.id && c == *rc.id) id_end = canonical.size();
-      if (k == CellKind::kMissing) ++t.missing[c];
-      if (k == CellKind::kNumber) ++t.numeric[c];
-      if (c != rc.target) continue;
-      if (k == CellKind::kMissing) return RequireValue(*csv, r, c, "target");
-      if (k == CellKind::kNumber) {
-        t.tmin = std::min(t.tmin, v);
-        t.tmax = std::max(t.tmax, v);
-        t.tsum += v;
-        if (v != std::floor(v)) t.target_all_integer = false;
-      } else {
-        if (regression_declared) {
-          return Status::InvalidArgument(csv->Location(csv->FieldOffset(r, c)) + ": target '" +
-                                         std::string(f[c]) +
-                                         "' is not a number; a regression task expects numbers");
-        }
-        t.target_all_numeric = false;
-      }
-      if (t.labels.size() <= kMaxClasses) {
-        if (k == CellKind::kNumber) {
-          char buf[32];
-          auto res = std::to_chars(buf, buf + sizeof buf, v == 0 ? 0.0 : v);
-          label.assign(buf, res.ptr);
-        } else {
-          label.assign(f[c].data(), f[c].size());
-        }
-        auto it = t.labels.find(label);
-        if (it != t.labels.end()) ++it->second;
-        else t.labels.emplace(label, 1);
-      }
+    const std::string_view target = f[rc.target];
+    if (IsMissing(target)) return RequireValue(*csv, r, rc.target, "target");
+    double v;
+    if (regression_declared && !ParseNumber(target, &v)) {
+      return Status::InvalidArgument(csv->Location(csv->FieldOffset(r, rc.target)) + ": target '" +
+                                     std::string(target) +
+                                     "' is not a number; a regression task expects numbers");
     }
     for (const auto& col : {rc.id, rc.group, rc.time}) {
       if (col) UNSEEN_RETURN_IF_ERROR(RequireValue(*csv, r, *col, ColumnRoleName(info.columns[*col].role)));
     }
     if (rc.id) t.id_hashes.emplace_back(Fnv1a(f[*rc.id]), r.offset);
-    hasher.Add(canonical, id_begin, id_end);
+    if (!batch) batch = pipeline.NewBatch();
+    AddToBatch(r, batch.get());
+    if (++batch->rows == internal::kScanBatchRows ||
+        batch->bytes.size() >= internal::kScanBatchMaxBytes) {
+      pipeline.Add(std::move(batch));
+    }
     if (options.progress && r.offset >= next_progress) {
       options.progress(static_cast<double>(r.offset) / static_cast<double>(csv->size()));
       next_progress = r.offset + (64u << 20);
     }
     return Status::OK();
   });
-  Digest256 merkle_root = hasher.Finish();
+  if (parsed.ok() && batch && batch->rows > 0) pipeline.Add(std::move(batch));
+  pipeline.Finish();
+  Digest256 merkle_root = merkle.Root();
   auto file = file_digest.get();
   UNSEEN_RETURN_IF_ERROR(parsed);
   if (!file.ok()) return file.status();
@@ -318,7 +259,7 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
       return Status::InvalidArgument("--target: column '" + options.roles.target +
                                      "' has a single value; expected at least two classes");
     }
-    info.target.classes = std::map<std::string, uint64_t>(t.labels.begin(), t.labels.end());
+    info.target.classes = t.labels.Counts();
   } else {
     info.target.min = t.tmin;
     info.target.max = t.tmax;

@@ -4,6 +4,7 @@
 #include <cstring>
 
 #include "harness/data/csv.h"
+#include "harness/data/holdout_rows.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
 #include "harness/pipeline/pipeline.h"
@@ -47,10 +48,19 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   if (row_digests.size() != st.source.rows * sizeof(RowDigest)) return Mismatch("row digest count");
 
   const SourceInfo& src = st.source;
+  // The plaintext's layout (harness/data/holdout_rows.h): back to CSV text, in memory.
+  std::string text;
+  if (seal.holdout_encoding == kHoldoutEncodingColumns) {
+    UNSEEN_ASSIGN_OR_RETURN(text, DecodeHoldoutRows(*plain));
+  } else if (seal.holdout_encoding == kHoldoutEncodingCsv) {
+    text = std::move(*plain);
+  } else {
+    return Status::Corruption("entry " + std::to_string(seal.entry_seq) +
+                              " (seal): unknown holdout encoding '" + seal.holdout_encoding + "'");
+  }
   CsvOptions options;
   options.delimiter = src.delimiter;
-  UNSEEN_ASSIGN_OR_RETURN(auto csv,
-                          CsvFile::FromBytes("<sealed holdout>", std::move(*plain), options));
+  UNSEEN_ASSIGN_OR_RETURN(auto csv, CsvFile::FromBytes("<sealed holdout>", std::move(text), options));
   if (csv->header().size() != src.columns.size()) return Mismatch("column count");
 
   std::unique_ptr<HoldoutGuard> g(new HoldoutGuard());

@@ -26,6 +26,9 @@ Result<SealInfo> SealFromJson(const Entry& e) {
     UNSEEN_ASSIGN_OR_RETURN(s.dev_set, HexField(j.at("dev"), "row_set"));
     UNSEEN_ASSIGN_OR_RETURN(s.sealed_rows, HexField(j.at("holdout"), "sealed_rows"));
     UNSEEN_ASSIGN_OR_RETURN(s.holdout_feature_digests, HexField(j.at("holdout"), "feature_digests"));
+    if (j.at("holdout").contains("encoding")) {
+      s.holdout_encoding = j.at("holdout").at("encoding").get<std::string>();
+    }
     const json& k = j.at("key");
     s.key.source = k.at("source").get<std::string>();
     s.key.key_check_hex = k.at("key_check").get<std::string>();

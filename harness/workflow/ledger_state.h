@@ -28,6 +28,9 @@ struct SealInfo {
   uint64_t seed = 0;
   uint64_t holdout_rows = 0, dev_rows = 0;
   Digest256 holdout_set{}, dev_set{}, sealed_rows{}, holdout_feature_digests{};
+  // How the sealed rows are laid out before compression (harness/data/holdout_rows.h):
+  // "columns-1", or "csv" for seals written before the encoding had a name.
+  std::string holdout_encoding = "csv";
   KeyInfo key;
   uint64_t budget_queries = 0;  // set at seal, plus every `budget` entry's raise
   double budget_half_width = 0;  // 0: no half-width limit

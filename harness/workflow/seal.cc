@@ -5,17 +5,23 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <array>
+#include <condition_variable>
 #include <cstdlib>
 #include <cstring>
 #include <future>
 #include <memory>
+#include <mutex>
 #include <nlohmann/json.hpp>
+#include <thread>
 #include <unordered_map>
 #include <unordered_set>
 
 #include "harness/data/csv.h"
+#include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
+#include "harness/workflow/holdout_sealer.h"
 #include "harness/workflow/staged_file.h"
 #include "storage/row_set.h"
 #include "storage/sealed_blob.h"
@@ -71,19 +77,16 @@ Status ReadSplitKeys(const CsvFile& csv, const SourceInfo& src, SplitRequest* sp
 // have an exact duplicate in dev, and counts the dev rows that have one.
 std::vector<uint32_t> CrossDuplicates(std::string_view digests, const SplitResult& split,
                                       uint64_t* dev_rows) {
-  auto at = [&](uint32_t row) {
-    RowDigest d;
-    std::memcpy(d.data(), digests.data() + size_t{row} * d.size(), d.size());
-    return d;
-  };
-  std::unordered_set<RowDigest, DigestHash> holdout;
-  holdout.reserve(split.holdout.size());
-  for (uint32_t r : split.holdout) holdout.insert(at(r));
+  const DigestIndex holdout(digests, &split.holdout);
   std::unordered_set<RowDigest, DigestHash> in_both;
   *dev_rows = 0;
-  for (uint32_t r : split.dev) {
-    RowDigest d = at(r);
-    if (holdout.count(d)) {
+  // Lookups land at random in the table: fetch a few rows ahead.
+  constexpr size_t kAhead = 16;
+  const std::vector<uint32_t>& dev = split.dev;
+  for (size_t i = 0; i < dev.size(); ++i) {
+    if (i + kAhead < dev.size()) holdout.Prefetch(holdout.At(dev[i + kAhead]));
+    const RowDigest d = holdout.At(dev[i]);
+    if (holdout.Contains(d)) {
       ++*dev_rows;
       in_both.insert(d);
     }
@@ -91,7 +94,7 @@ std::vector<uint32_t> CrossDuplicates(std::string_view digests, const SplitResul
   std::vector<uint32_t> rows;
   if (in_both.empty()) return rows;
   for (uint32_t r : split.holdout) {
-    if (in_both.count(at(r))) rows.push_back(r);
+    if (in_both.count(holdout.At(r))) rows.push_back(r);
   }
   return rows;
 }
@@ -116,43 +119,161 @@ bool SameFile(const std::string& a, const std::string& b) {
 struct Pass2Output {
   std::string sealed;
   std::string feature_digests;  // 16 bytes per holdout row, in row order
+  std::vector<uint64_t> holdout_lines;  // the file line of each holdout row, when asked for
   std::vector<uint64_t> duplicate_lines;
 };
 
-// Pass 2: dev rows to the dev file, holdout rows into the sealed blob.
+// The dev file's bytes: each dev record and LF, in file order, written and
+// hashed on a second thread. A record that ends with LF in the source is
+// passed on with its neighbours as one span of the mapped file (most dev
+// records follow one another), so a span costs one write, not a copy per row.
+class DevRows {
+ public:
+  explicit DevRows(StagedFile* file) : file_(file), worker_([this] { Work(); }) {}
+  ~DevRows() { (void)Finish(); }
+
+  // Returns the worker's first error, if it has failed so far.
+  Status Add(const CsvRecord& r) {
+    const bool ends_with_lf = r.raw_line.size() == r.raw.size() + 1;  // not CRLF, not the last line
+    if (ends_with_lf && r.raw_line.data() == span_end_) {
+      span_end_ += r.raw_line.size();
+    } else {
+      EndSpan();
+      if (ends_with_lf) {
+        span_begin_ = r.raw_line.data();
+        span_end_ = span_begin_ + r.raw_line.size();
+      } else {  // CRLF or no line end in the source: the dev file has LF
+        current_.pieces.push_back({nullptr, current_.owned.size(), r.raw.size() + 1});
+        current_.owned.append(r.raw.data(), r.raw.size());
+        current_.owned.push_back('\n');
+        current_.bytes += r.raw.size() + 1;
+      }
+    }
+    if (static_cast<size_t>(span_end_ - span_begin_) >= kSpanBytes) EndSpan();
+    if (current_.bytes < kBatchBytes) return Status::OK();
+    Handoff();
+    std::lock_guard<std::mutex> lock(mu_);
+    return error_;
+  }
+
+  // Writes what is left and stops the worker; returns its first error.
+  Status Finish() {
+    if (worker_.joinable()) {
+      EndSpan();
+      if (!current_.pieces.empty()) Handoff();
+      {
+        std::lock_guard<std::mutex> lock(mu_);
+        done_ = true;
+      }
+      cv_.notify_all();
+      worker_.join();
+    }
+    return error_;
+  }
+
+ private:
+  static constexpr size_t kSpanBytes = size_t{1} << 20;
+  static constexpr size_t kBatchBytes = size_t{4} << 20;
+  struct Piece {
+    const char* data;  // in the mapping, or nullptr for `owned` from `offset`
+    size_t offset, size;
+  };
+  struct Batch {
+    std::vector<Piece> pieces;
+    std::string owned;
+    size_t bytes = 0;
+  };
+
+  void EndSpan() {
+    if (span_end_ != span_begin_) {
+      const size_t n = static_cast<size_t>(span_end_ - span_begin_);
+      current_.pieces.push_back({span_begin_, 0, n});
+      current_.bytes += n;
+    }
+    span_begin_ = span_end_ = nullptr;
+  }
+
+  void Handoff() {
+    std::unique_lock<std::mutex> lock(mu_);
+    cv_.wait(lock, [this] { return !pending_full_; });
+    std::swap(pending_, current_);
+    pending_full_ = true;
+    lock.unlock();
+    cv_.notify_all();
+    current_.pieces.clear();
+    current_.owned.clear();
+    current_.bytes = 0;
+  }
+
+  void Work() {
+    Batch batch;
+    for (;;) {
+      {
+        std::unique_lock<std::mutex> lock(mu_);
+        cv_.wait(lock, [this] { return pending_full_ || done_; });
+        if (!pending_full_) return;
+        std::swap(batch, pending_);
+        pending_full_ = false;
+      }
+      cv_.notify_all();
+      Status s;
+      for (const Piece& p : batch.pieces) {
+        const char* at = p.data ? p.data : batch.owned.data() + p.offset;
+        if (s.ok()) s = file_->Write(std::string_view(at, p.size));
+      }
+      if (!s.ok()) {
+        std::lock_guard<std::mutex> lock(mu_);
+        if (error_.ok()) error_ = s;
+      }
+    }
+  }
+
+  StagedFile* file_;
+  const char* span_begin_ = nullptr;
+  const char* span_end_ = nullptr;
+  Batch current_, pending_;
+  bool pending_full_ = false, done_ = false;
+  Status error_;
+  std::mutex mu_;
+  std::condition_variable cv_;
+  std::thread worker_;  // last: starts after every member above exists
+};
+
+// Pass 2: dev rows to the dev file, holdout rows into the sealed blob (on a
+// second thread) and their feature digests; with `record_lines`, the file
+// line of each holdout row.
 Status WriteRows(const CsvFile& csv, const SourceInfo& src, const SplitResult& split,
-                 const std::vector<uint32_t>& flagged, const Key& key, const std::string& aad,
-                 StagedFile* dev, Pass2Output* out, const std::function<void(double)>& progress) {
-  UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<SealedWriter> sealer, SealedWriter::Create(key, aad));
+                 bool record_lines, const Key& key, const std::string& aad, StagedFile* dev,
+                 Pass2Output* out, const std::function<void(double)>& progress) {
   std::string header = std::string(csv.header_raw()) + "\n";
   UNSEEN_RETURN_IF_ERROR(dev->Write(header));
-  UNSEEN_RETURN_IF_ERROR(sealer->Append(header));
+  UNSEEN_ASSIGN_OR_RETURN(
+      std::unique_ptr<HoldoutSealer> sealer,
+      HoldoutSealer::Create(key, aad, csv.header_raw(), src.delimiter, src.columns.size()));
   std::vector<size_t> skip;
   if (auto id = src.ColumnOf(ColumnRole::kId)) skip.push_back(*id);
   skip.push_back(*src.ColumnOf(ColumnRole::kTarget));
   RowDigester features(skip);
-  size_t next_holdout = 0, next_flag = 0;
-  std::string line;
+  DevRows dev_rows(dev);
+  out->feature_digests.reserve(split.holdout.size() * sizeof(RowDigest));
+  size_t next_holdout = 0;
   uint64_t next_progress = 0;
   Status s = csv.ForEachRecord([&](const CsvRecord& r) -> Status {
-    line.assign(r.raw.data(), r.raw.size());
-    line.push_back('\n');
     bool in_holdout = next_holdout < split.holdout.size() && split.holdout[next_holdout] == r.index;
-    if (!in_holdout) return dev->Write(line);
+    if (!in_holdout) return dev_rows.Add(r);
     ++next_holdout;
-    if (next_flag < flagged.size() && flagged[next_flag] == r.index) {
-      if (out->duplicate_lines.size() < kShownDuplicateLines) out->duplicate_lines.push_back(r.line);
-      ++next_flag;
-    }
+    if (record_lines) out->holdout_lines.push_back(r.line);
     RowDigest d = features.Digest(*r.fields);
     out->feature_digests.append(reinterpret_cast<const char*>(d.data()), d.size());
     if (progress && r.offset >= next_progress) {
       progress(static_cast<double>(r.offset) / static_cast<double>(csv.size()));
       next_progress = r.offset + (64u << 20);
     }
-    return sealer->Append(line);
+    return sealer->AddRow(r.raw);
   });
+  Status written = dev_rows.Finish();
   UNSEEN_RETURN_IF_ERROR(s);
+  UNSEEN_RETURN_IF_ERROR(written);
   UNSEEN_ASSIGN_OR_RETURN(out->sealed, sealer->Finish());
   return Status::OK();
 }
@@ -187,9 +308,28 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
     return Status::InvalidArgument("--dev-out: " + req.dev_out + " is the data file itself");
   }
   if (src.rows > kMaxSplitRows) return Status::InvalidArgument("source has too many rows to split");
+  SealReport report;
+  report.has_group = src.ColumnOf(ColumnRole::kGroup).has_value();
+  report.has_time = src.ColumnOf(ColumnRole::kTime).has_value();
+  if (req.strategy == SplitStrategy::kGroup && !report.has_group) {
+    return Status::InvalidArgument(
+        "--strategy group: the source has no group column (init --group)");
+  }
+  if (req.strategy == SplitStrategy::kTime && !report.has_time) {
+    return Status::InvalidArgument("--strategy time: the source has no time column (init --time)");
+  }
+  if (req.strategy == SplitStrategy::kStratified && src.task != TaskKind::kClassification) {
+    return Status::InvalidArgument("--strategy stratified: needs a classification target");
+  }
 
-  // The file must be the one registered: its digest runs beside the passes.
-  auto file_digest = std::async(std::launch::async, [&data] { return Sha256File(data); });
+  CsvOptions csv_options;
+  csv_options.delimiter = src.delimiter;
+  auto csv = CsvFile::Open(data, csv_options);
+  if (!csv.ok()) return csv.status();
+  // The file must be the one registered: its digest runs beside the passes, over the mapping
+  // the rows are read from.
+  const CsvFile& file = **csv;
+  auto file_digest = std::async(std::launch::async, [&file] { return file.Sha256(); });
   auto check_file = [&]() -> Status {
     auto fd = file_digest.get();
     if (!fd.ok()) return fd.status();
@@ -200,11 +340,6 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
     }
     return Status::OK();
   };
-  CsvOptions csv_options;
-  csv_options.delimiter = src.delimiter;
-  auto csv = CsvFile::Open(data, csv_options);
-  if (!csv.ok()) return csv.status();
-
   SplitRequest split_req;
   split_req.strategy = req.strategy;
   split_req.fraction = req.fraction;
@@ -212,18 +347,6 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   split_req.rows = src.rows;
   std::vector<uint32_t> group_of_row;
   SplitRequest time_keys;
-  SealReport report;
-  report.has_group = src.ColumnOf(ColumnRole::kGroup).has_value();
-  report.has_time = src.ColumnOf(ColumnRole::kTime).has_value();
-  if (req.strategy == SplitStrategy::kGroup && !report.has_group) {
-    return Status::InvalidArgument("--strategy group: the source has no group column (init --group)");
-  }
-  if (req.strategy == SplitStrategy::kTime && !report.has_time) {
-    return Status::InvalidArgument("--strategy time: the source has no time column (init --time)");
-  }
-  if (req.strategy == SplitStrategy::kStratified && src.task != TaskKind::kClassification) {
-    return Status::InvalidArgument("--strategy stratified: needs a classification target");
-  }
   if (req.strategy != SplitStrategy::kRandom || report.has_group || report.has_time) {
     UNSEEN_RETURN_IF_ERROR(ReadSplitKeys(**csv, src, &split_req, &group_of_row, &time_keys));
   }
@@ -234,18 +357,23 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   }
   UNSEEN_ASSIGN_OR_RETURN(SplitResult split, Split(split_req));
 
-  // Exact duplicates across the cut are a leak: report, and optionally drop.
-  UNSEEN_ASSIGN_OR_RETURN(std::string content, ledger->GetBlob(state.content_digests));
-  if (content.size() != src.rows * sizeof(RowDigest)) {
-    return Status::Corruption("the content digest list does not match the source's row count");
-  }
-  std::vector<uint32_t> flagged = CrossDuplicates(content, split, &report.cross_duplicate_dev_rows);
-  content = std::string();
-  report.cross_duplicate_holdout_rows = flagged.size();
-  std::vector<uint32_t> flagged_before_drop = flagged;
-  if (req.drop_cross_duplicates && !flagged.empty()) {
-    MoveToDev(flagged, &split);
-    report.dropped_cross_duplicates = true;
+  // Exact duplicates across the cut are a leak: report, and optionally drop. Dropping them
+  // changes the split, so it happens now; otherwise they are found after pass 2, while the dev
+  // file reaches the disk.
+  auto cross_duplicates = [&]() -> Result<std::vector<uint32_t>> {
+    UNSEEN_ASSIGN_OR_RETURN(std::string content, ledger->GetBlob(state.content_digests));
+    if (content.size() != src.rows * sizeof(RowDigest)) {
+      return Status::Corruption("the content digest list does not match the source's row count");
+    }
+    return CrossDuplicates(content, split, &report.cross_duplicate_dev_rows);
+  };
+  std::vector<uint32_t> flagged;
+  if (req.drop_cross_duplicates) {
+    UNSEEN_ASSIGN_OR_RETURN(flagged, cross_duplicates());
+    if (!flagged.empty()) {
+      MoveToDev(flagged, &split);
+      report.dropped_cross_duplicates = true;
+    }
   }
   if (report.has_group) report.group_violations = CountGroupViolations(group_of_row, split.holdout);
   if (report.has_time) {
@@ -253,21 +381,49 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
     report.time_violations = CountTimeViolations(time_keys, split);
   }
 
-  RowSet holdout_set = RowSet::FromSorted(split.holdout);
-  RowSet dev_set = RowSet::FromSorted(split.dev);
-  UNSEEN_ASSIGN_OR_RETURN(BlobRef holdout_ref, ledger->PutBlob("row-set", holdout_set.Serialize()));
-  UNSEEN_ASSIGN_OR_RETURN(BlobRef dev_ref, ledger->PutBlob("row-set", dev_set.Serialize()));
-
+  // The holdout's row set binds the sealed blob (its digest is in the AAD): it comes first.
+  UNSEEN_ASSIGN_OR_RETURN(
+      BlobRef holdout_ref,
+      ledger->PutBlob("row-set", RowSet::FromSorted(split.holdout).Serialize()));
   StagedFile dev(req.dev_out, "--dev-out");
   UNSEEN_RETURN_IF_ERROR(dev.Open());
   Pass2Output out;
+  const bool find_later = !req.drop_cross_duplicates;
+  if (find_later) out.holdout_lines.reserve(split.holdout.size());
   std::string aad = SealedAad(state.ledger_id, holdout_ref.digest);
-  UNSEEN_RETURN_IF_ERROR(WriteRows(**csv, src, split, flagged_before_drop, req.key, aad, &dev, &out,
-                                   req.progress));
+  UNSEEN_RETURN_IF_ERROR(
+      WriteRows(**csv, src, split, find_later, req.key, aad, &dev, &out, req.progress));
   UNSEEN_RETURN_IF_ERROR(check_file());
-  UNSEEN_RETURN_IF_ERROR(dev.Close(&report.dev_out_sha256));
-  UNSEEN_ASSIGN_OR_RETURN(BlobRef sealed_ref, ledger->PutBlob("sealed-rows", out.sealed));
-  UNSEEN_ASSIGN_OR_RETURN(BlobRef feat_ref, ledger->PutBlob("feature-digests", out.feature_digests));
+  // The dev file reaches the disk (fsync) on another thread while this one finishes the
+  // ledger's part; the commit waits for both.
+  std::future<Status> closing =
+      std::async(std::launch::async, [&dev, &report] { return dev.Close(&report.dev_out_sha256); });
+  auto ledger_part = [&]() -> Result<std::array<BlobRef, 3>> {
+    // The largest blobs go in first and are freed, before the digest list is read.
+    UNSEEN_ASSIGN_OR_RETURN(BlobRef sealed_ref, ledger->PutBlob("sealed-rows", out.sealed));
+    UNSEEN_ASSIGN_OR_RETURN(BlobRef feat_ref,
+                            ledger->PutBlob("feature-digests", out.feature_digests));
+    out.sealed = std::string();
+    out.feature_digests = std::string();
+    if (find_later) {
+      UNSEEN_ASSIGN_OR_RETURN(flagged, cross_duplicates());
+      // The first few holdout rows with a duplicate in dev, by their line in the file.
+      for (uint32_t row : flagged) {
+        if (out.duplicate_lines.size() == kShownDuplicateLines) break;
+        const auto at = std::lower_bound(split.holdout.begin(), split.holdout.end(), row);
+        out.duplicate_lines.push_back(
+            out.holdout_lines[static_cast<size_t>(at - split.holdout.begin())]);
+      }
+    }
+    UNSEEN_ASSIGN_OR_RETURN(BlobRef dev_ref,
+                            ledger->PutBlob("row-set", RowSet::FromSorted(split.dev).Serialize()));
+    return std::array<BlobRef, 3>{dev_ref, sealed_ref, feat_ref};
+  };
+  Result<std::array<BlobRef, 3>> refs = ledger_part();
+  UNSEEN_RETURN_IF_ERROR(closing.get());
+  if (!refs.ok()) return refs.status();
+  report.cross_duplicate_holdout_rows = flagged.size();
+  const auto& [dev_ref, sealed_ref, feat_ref] = *refs;
 
   KeyInfo key_info = req.key_info;
   key_info.key_check_hex = ToHex(KeyCheck(req.key, state.ledger_id));
@@ -278,12 +434,19 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
       {"seed", req.seed},
       {"requested_holdout", split.requested_holdout},
       {"split_note", split.note},
-      {"holdout", {{"rows", split.holdout.size()}, {"row_set", ToHex(holdout_ref.digest)},
-                   {"sealed_rows", ToHex(sealed_ref.digest)}, {"feature_digests", ToHex(feat_ref.digest)},
-                   {"cipher", "AES-256-GCM"}, {"compression", "zstd"}}},
-      {"dev", {{"rows", split.dev.size()}, {"row_set", ToHex(dev_ref.digest)},
-               {"file", {{"path", req.dev_out}, {"sha256", ToHex(report.dev_out_sha256)},
-                         {"size", dev.size()}}}}},
+      {"holdout",
+       {{"rows", split.holdout.size()},
+        {"row_set", ToHex(holdout_ref.digest)},
+        {"sealed_rows", ToHex(sealed_ref.digest)},
+        {"feature_digests", ToHex(feat_ref.digest)},
+        {"cipher", "AES-256-GCM"},
+        {"compression", "zstd"},
+        {"encoding", kHoldoutEncodingColumns}}},
+      {"dev",
+       {{"rows", split.dev.size()},
+        {"row_set", ToHex(dev_ref.digest)},
+        {"file",
+         {{"path", req.dev_out}, {"sha256", ToHex(report.dev_out_sha256)}, {"size", dev.size()}}}}},
       {"key", KeyJson(key_info)},
       {"cross_duplicates", {{"holdout_rows", report.cross_duplicate_holdout_rows},
                             {"dev_rows", report.cross_duplicate_dev_rows},

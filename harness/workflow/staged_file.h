@@ -1,7 +1,9 @@
 // StagedFile: an output file written beside its destination under a
 // temporary name, hashed as it is written, and moved into place only when
 // the command's ledger transaction has committed. Destroyed before
-// MoveIntoPlace(), it removes the temporary file. Not thread-safe.
+// MoveIntoPlace(), it removes the temporary file. Writing back to the disk
+// starts every few MiB (on Linux), so that Close()'s fsync has little left to
+// wait for. Not thread-safe.
 #ifndef UNSEEN_HARNESS_WORKFLOW_STAGED_FILE_H_
 #define UNSEEN_HARNESS_WORKFLOW_STAGED_FILE_H_
 
@@ -23,7 +25,7 @@ class StagedFile {
   StagedFile& operator=(const StagedFile&) = delete;
 
   Status Open();                       // InvalidArgument if the directory is not writable
-  Status Write(std::string_view bytes);
+  Status Write(std::string_view bytes);  // IOError naming the option and file
   Status Close(Digest256* sha256);     // flushes and fsyncs; the digest of every byte written
   Status MoveIntoPlace();              // REQUIRES: Close() succeeded
   uint64_t size() const { return size_; }
@@ -32,8 +34,12 @@ class StagedFile {
  private:
   std::string path_, option_, tmp_;
   FILE* f_ = nullptr;
+  // Asks the kernel to start writing what was written since writeback_.
+  void StartWriteback();
+
   Sha256 sha_;
   uint64_t size_ = 0;
+  uint64_t writeback_ = 0;  // bytes already handed to StartWriteback()
   bool done_ = false;
 };
 

@@ -3,6 +3,7 @@
 #include <cstring>
 
 #include "harness/data/csv.h"
+#include "harness/data/holdout_rows.h"
 #include "harness/data/row_digest.h"
 #include "harness/workflow/ledger_state.h"
 #include "storage/row_set.h"
@@ -41,9 +42,19 @@ Result<uint64_t> CheckSealedHoldout(const Ledger& ledger, const KeySpec& spec) {
   UNSEEN_ASSIGN_OR_RETURN(std::string features, ledger.GetBlob(seal.holdout_feature_digests));
   if (features.size() != rows.size() * sizeof(RowDigest)) return Mismatch("feature digest count");
 
+  std::string text;
+  if (seal.holdout_encoding == kHoldoutEncodingColumns) {
+    UNSEEN_ASSIGN_OR_RETURN(text, DecodeHoldoutRows(*plain));
+  } else if (seal.holdout_encoding == kHoldoutEncodingCsv) {
+    text = std::move(*plain);
+  } else {
+    return Status::Corruption("entry " + std::to_string(seal.entry_seq) +
+                              " (seal): unknown holdout encoding '" + seal.holdout_encoding + "'");
+  }
   CsvOptions options;
   options.delimiter = st.source.delimiter;
-  UNSEEN_ASSIGN_OR_RETURN(auto csv, CsvFile::FromBytes("<sealed holdout>", std::move(*plain), options));
+  UNSEEN_ASSIGN_OR_RETURN(auto csv,
+                          CsvFile::FromBytes("<sealed holdout>", std::move(text), options));
   if (csv->header().size() != st.source.columns.size()) return Mismatch("column count");
   std::vector<size_t> skip;
   if (auto id = st.source.ColumnOf(ColumnRole::kId)) skip.push_back(*id);

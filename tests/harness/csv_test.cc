@@ -237,6 +237,7 @@ TEST_F(CsvTest, RecordPositionsAndRawBytes) {
       EXPECT_EQ(r.line, 2u);
       EXPECT_EQ(r.offset, 5u);
       EXPECT_EQ(r.raw, "1,\"x\r\ny\"");
+      EXPECT_EQ(r.raw_line, "1,\"x\r\ny\"\r\n");
       EXPECT_EQ(*r.fields, (std::vector<std::string_view>{"1", "x\r\ny"}));
       EXPECT_EQ(f.FieldOffset(r, 0), 5u);
       EXPECT_EQ(f.FieldOffset(r, 1), 7u);   // the opening quote
@@ -246,6 +247,7 @@ TEST_F(CsvTest, RecordPositionsAndRawBytes) {
       EXPECT_EQ(r.line, 4u);
       EXPECT_EQ(r.offset, 15u);
       EXPECT_EQ(r.raw, "2,3");
+      EXPECT_EQ(r.raw_line, "2,3");  // the last line has no line end
       EXPECT_EQ(f.FieldOffset(r, 1), 17u);
     }
     locations.push_back(f.Location(f.FieldOffset(r, 1)));
@@ -259,6 +261,28 @@ TEST_F(CsvTest, RecordPositionsAndRawBytes) {
   EXPECT_EQ(f.Location(0), last_path_ + ":1:1");
   EXPECT_EQ(f.Location(11), last_path_ + ":3:1");  // the 'y' after the quoted CRLF
   EXPECT_EQ(f.Location(1000), last_path_ + ":4:4");
+}
+
+TEST_F(CsvTest, RawLineKeepsAnLfLineEnd) {
+  auto csv = Open("a\n1\n\n");
+  ASSERT_OK(csv);
+  std::vector<std::string> lines;
+  ASSERT_OK((*csv)->ForEachRecord([&](const CsvRecord& r) {
+    EXPECT_EQ(r.raw_line.data(), r.raw.data());
+    lines.emplace_back(r.raw_line);
+    return Status::OK();
+  }));
+  EXPECT_EQ(lines, (std::vector<std::string>{"1\n", "\n"}));
+}
+
+TEST_F(CsvTest, Sha256IsTheDigestOfTheWholeFile) {
+  const std::string content = "\xEF\xBB\xBFk,v\n" + std::string(3000, 'x') + ",1\n";
+  auto csv = Open(content);
+  ASSERT_OK(csv);
+  auto d = (*csv)->Sha256();
+  ASSERT_OK(d);
+  EXPECT_EQ(d->sha256, Sha256Of(content));
+  EXPECT_EQ(d->size, content.size());
 }
 
 TEST_F(CsvTest, FieldOffsetSkipsQuotedDelimiters) {
@@ -317,7 +341,8 @@ TEST_F(CsvTest, FromBytesReadsMemoryUnderItsName) {
 }
 
 TEST_F(CsvTest, FromBytesKeepsItsDataPastTheReleaseInterval) {
-  // More than the 32 MiB release interval: pages of a mapping are released, memory is not.
+  // More than the release interval and lag (32 MiB in all): pages of a mapping are released,
+  // memory is not.
   std::string text = "k,v\n";
   const std::string row = "key,0123456789abcdef0123456789abcdef0123456789abcdef0123456789a\n";
   const uint64_t rows = (uint64_t{34} << 20) / row.size();

@@ -1,11 +1,13 @@
 #include "storage/digest.h"
 
 #include <gtest/gtest.h>
+#include <openssl/evp.h>
 #include <sys/stat.h>
 
 #include <random>
 #include <string>
 
+#include "storage/sha256_compress.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {
@@ -72,6 +74,98 @@ TEST(Sha256Test, MovedHasherKeepsItsState) {
   Sha256 moved = std::move(h);
   moved.Update("c");
   EXPECT_EQ(moved.Finish(), Sha256Of("abc"));
+}
+
+// OpenSSL's SHA-256: the independent implementation ours is compared with.
+Digest256 OpensslSha256(std::string_view m) {
+  Digest256 d;
+  unsigned int len = 0;
+  EXPECT_EQ(EVP_Digest(m.data(), m.size(), d.data(), &len, EVP_sha256(), nullptr), 1);
+  return d;
+}
+
+std::string RandomBytes(std::mt19937_64& rng, size_t n) {
+  std::string s(n, '\0');
+  for (char& c : s) c = static_cast<char>(rng());
+  return s;
+}
+
+// Runs `body` once with the automatic choice of implementation and once with
+// the portable one forced.
+template <class Body>
+void ForEachImplementation(Body body) {
+  SCOPED_TRACE("automatic implementation");
+  body();
+  internal::ForcePortableSha256ForTesting(true);
+  {
+    SCOPED_TRACE("portable implementation");
+    body();
+  }
+  internal::ForcePortableSha256ForTesting(false);
+}
+
+TEST(Sha256Test, AgreesWithOpensslForEveryLengthUpTo300) {
+  ForEachImplementation([] {
+    std::mt19937_64 rng(180);
+    for (size_t n = 0; n <= 300; ++n) {
+      const std::string m = RandomBytes(rng, n);
+      const Digest256 want = OpensslSha256(m);
+      ASSERT_EQ(Sha256Of(m), want) << "length " << n;
+      Sha256 h;
+      for (size_t off = 0; off < n; off += 1 + off % 70) {
+        h.Update(std::string_view(m).substr(off, 1 + off % 70));
+      }
+      ASSERT_EQ(h.Finish(), want) << "length " << n << " in pieces";
+    }
+  });
+}
+
+TEST(Sha256Test, TwoMessagesAtOnceAgreeWithOpenssl) {
+  ForEachImplementation([] {
+    std::mt19937_64 rng(2);
+    for (size_t n = 0; n <= 200; ++n) {
+      for (size_t other : {n, n + 1, size_t{0}}) {
+        const std::string a = RandomBytes(rng, n), b = RandomBytes(rng, other);
+        Digest256 da, db;
+        Sha256OfTwo(a, b, &da, &db);
+        ASSERT_EQ(da, OpensslSha256(a)) << n << " and " << other;
+        ASSERT_EQ(db, OpensslSha256(b)) << n << " and " << other;
+      }
+    }
+  });
+}
+
+TEST(Sha256Test, ShaExtensionsAndPortableCompressionAgreeOnManyBlocks) {
+  if (!internal::CpuHasShaExtensions()) GTEST_SKIP() << "this CPU has no SHA extensions";
+  std::mt19937_64 rng(4);
+  const std::string data = RandomBytes(rng, 64 * 1000);
+  const auto* p = reinterpret_cast<const uint8_t*>(data.data());
+  uint32_t portable[8], ext[8], ext_a[8], ext_b[8];
+  for (uint32_t* s : {portable, ext, ext_a, ext_b}) {
+    std::copy(internal::kSha256Initial, internal::kSha256Initial + 8, s);
+  }
+  internal::Sha256CompressPortable(portable, p, 1000);
+  internal::Sha256CompressShaExt(ext, p, 1000);
+  EXPECT_TRUE(std::equal(portable, portable + 8, ext));
+  uint32_t portable_b[8];
+  std::copy(internal::kSha256Initial, internal::kSha256Initial + 8, portable_b);
+  internal::Sha256CompressPortable(portable_b, p + 64 * 500, 500);
+  internal::Sha256Compress2ShaExt(ext_a, p, ext_b, p + 64 * 500, 500);
+  uint32_t portable_a[8];
+  std::copy(internal::kSha256Initial, internal::kSha256Initial + 8, portable_a);
+  internal::Sha256CompressPortable(portable_a, p, 500);
+  EXPECT_TRUE(std::equal(portable_a, portable_a + 8, ext_a));
+  EXPECT_TRUE(std::equal(portable_b, portable_b + 8, ext_b));
+}
+
+TEST(Sha256Test, FipsVectorsWithThePortableImplementation) {
+  internal::ForcePortableSha256ForTesting(true);
+  // FIPS 180-4 examples, as above.
+  EXPECT_EQ(Hex(Sha256Of("abc")),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad");
+  EXPECT_EQ(Hex(Sha256Of("abcdbcdecdefdefgefghfghighijhijkijkljklmklmnlmnomnopnopq")),
+            "248d6a61d20638b8e5c026930c3e6039a33ce45964ff2167f6ecedd419db06c1");
+  internal::ForcePortableSha256ForTesting(false);
 }
 
 TEST(HexTest, RoundTripsAndIsLowerCase) {

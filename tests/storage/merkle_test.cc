@@ -74,6 +74,55 @@ TEST(MerkleTest, StreamingEqualsRecursiveForEverySizeUpTo70) {
   }
 }
 
+TEST(MerkleTest, AddLeavesEqualsAddLeafForAnyStartAndCount) {
+  std::mt19937 rng(13);
+  // Counts around the batch sizes (powers of two up to 8192 and past it) and
+  // starts that are aligned to powers of two or not.
+  for (size_t start : {0, 1, 3, 8, 100, 4096}) {
+    for (size_t count : {0, 1, 2, 5, 64, 127, 8192, 8193, 20000}) {
+      std::string leaves(16 * (start + count), '\0');
+      for (char& c : leaves) c = static_cast<char>(rng());
+      MerkleBuilder one, batch;
+      for (size_t i = 0; i < start + count; ++i) one.AddLeaf(leaves.data() + 16 * i, 16);
+      for (size_t i = 0; i < start; ++i) batch.AddLeaf(leaves.data() + 16 * i, 16);
+      batch.AddLeaves(leaves.data() + 16 * start, 16, count);
+      ASSERT_EQ(batch.size(), start + count);
+      ASSERT_EQ(ToHex(batch.Root()), ToHex(one.Root())) << start << " + " << count;
+    }
+  }
+}
+
+TEST(MerkleTest, AddSubtreeEqualsAddingItsLeaves) {
+  std::mt19937 rng(8);
+  std::string leaves(16 * 40, '\0');
+  for (char& c : leaves) c = static_cast<char>(rng());
+  MerkleBuilder one, parts;
+  for (size_t i = 0; i < 40; ++i) one.AddLeaf(leaves.data() + 16 * i, 16);
+  // 8 leaves, a subtree of 8, one of 16, then 8 leaves one by one.
+  parts.AddLeaves(leaves.data(), 16, 8);
+  for (size_t at : {8, 16}) {
+    const size_t n = at == 8 ? 8 : 16;
+    MerkleBuilder sub;
+    sub.AddLeaves(leaves.data() + 16 * at, 16, n);
+    parts.AddSubtree(sub.Root(), at == 8 ? 3 : 4);
+  }
+  parts.AddLeaves(leaves.data() + 16 * 32, 16, 8);
+  EXPECT_EQ(parts.size(), 40u);
+  EXPECT_EQ(ToHex(parts.Root()), ToHex(one.Root()));
+}
+
+TEST(MerkleTest, AddLeavesWithLongLeavesFallsBackToOneAtATime) {
+  std::vector<std::string> leaves;
+  std::string packed;
+  for (int i = 0; i < 9; ++i) {
+    leaves.push_back(std::string(100, static_cast<char>('a' + i)));
+    packed += leaves.back();
+  }
+  MerkleBuilder b;
+  b.AddLeaves(packed.data(), 100, leaves.size());
+  EXPECT_EQ(b.Root(), MerkleRoot(leaves));
+}
+
 TEST(MerkleTest, LeafAndNodeHashesAreDomainSeparated) {
   // A two-leaf tree's root is SHA-256(0x01 || h0 || h1); a single leaf whose
   // bytes are h0 || h1 must hash differently (prefix 0x00).
