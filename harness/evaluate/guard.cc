@@ -4,12 +4,11 @@
 #include <cstring>
 
 #include "harness/data/csv.h"
-#include "harness/data/holdout_rows.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
 #include "harness/pipeline/pipeline.h"
+#include "harness/workflow/verify.h"
 #include "storage/row_set.h"
-#include "storage/sealed_blob.h"
 
 namespace unseen {
 
@@ -31,16 +30,7 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
                                                          const LedgerState& st, const Key& key) {
   if (!st.seal) return Status::FailedPrecondition(ledger.path() + ": the ledger is not sealed yet");
   const SealInfo& seal = *st.seal;
-  UNSEEN_ASSIGN_OR_RETURN(std::string blob, ledger.GetBlob(seal.sealed_rows));
-  auto plain = OpenSealed(key, SealedAad(st.ledger_id, seal.holdout_set), blob);
-  if (!plain.ok()) {
-    if (plain.status().IsWrongKey()) {
-      return Status::Corruption("entry " + std::to_string(seal.entry_seq) +
-                                " (seal): the sealed holdout fails authentication although the "
-                                "key is right; the blob or its binding was damaged");
-    }
-    return plain.status();
-  }
+  UNSEEN_ASSIGN_OR_RETURN(std::string text, OpenHoldoutText(ledger, st, key));
   UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(seal.holdout_set));
   UNSEEN_ASSIGN_OR_RETURN(RowSet holdout, RowSet::Deserialize(set_bytes));
   const std::vector<uint32_t> rows = holdout.ToVector();
@@ -48,19 +38,10 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   if (row_digests.size() != st.source.rows * sizeof(RowDigest)) return Mismatch("row digest count");
 
   const SourceInfo& src = st.source;
-  // The plaintext's layout (harness/data/holdout_rows.h): back to CSV text, in memory.
-  std::string text;
-  if (seal.holdout_encoding == kHoldoutEncodingColumns) {
-    UNSEEN_ASSIGN_OR_RETURN(text, DecodeHoldoutRows(*plain));
-  } else if (seal.holdout_encoding == kHoldoutEncodingCsv) {
-    text = std::move(*plain);
-  } else {
-    return Status::Corruption("entry " + std::to_string(seal.entry_seq) +
-                              " (seal): unknown holdout encoding '" + seal.holdout_encoding + "'");
-  }
   CsvOptions options;
   options.delimiter = src.delimiter;
-  UNSEEN_ASSIGN_OR_RETURN(auto csv, CsvFile::FromBytes("<sealed holdout>", std::move(text), options));
+  UNSEEN_ASSIGN_OR_RETURN(auto csv,
+                          CsvFile::FromBytes("<sealed holdout>", std::move(text), options));
   if (csv->header().size() != src.columns.size()) return Mismatch("column count");
 
   std::unique_ptr<HoldoutGuard> g(new HoldoutGuard());

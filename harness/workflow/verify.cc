@@ -19,11 +19,9 @@ Status Mismatch(const std::string& what) {
 
 }  // namespace
 
-Result<uint64_t> CheckSealedHoldout(const Ledger& ledger, const KeySpec& spec) {
-  UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(ledger));
+Result<std::string> OpenHoldoutText(const Ledger& ledger, const LedgerState& st, const Key& key) {
   if (!st.seal) return Status::FailedPrecondition(ledger.path() + ": the ledger is not sealed yet");
   const SealInfo& seal = *st.seal;
-  UNSEEN_ASSIGN_OR_RETURN(Key key, KeyForSeal(spec, seal, st.ledger_id));
   UNSEEN_ASSIGN_OR_RETURN(std::string blob, ledger.GetBlob(seal.sealed_rows));
   auto plain = OpenSealed(key, SealedAad(st.ledger_id, seal.holdout_set), blob);
   if (!plain.ok()) {
@@ -35,13 +33,6 @@ Result<uint64_t> CheckSealedHoldout(const Ledger& ledger, const KeySpec& spec) {
     }
     return plain.status();
   }
-  UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(seal.holdout_set));
-  UNSEEN_ASSIGN_OR_RETURN(RowSet holdout, RowSet::Deserialize(set_bytes));
-  std::vector<uint32_t> rows = holdout.ToVector();
-  UNSEEN_ASSIGN_OR_RETURN(std::string row_digests, ledger.GetBlob(st.row_digests));
-  UNSEEN_ASSIGN_OR_RETURN(std::string features, ledger.GetBlob(seal.holdout_feature_digests));
-  if (features.size() != rows.size() * sizeof(RowDigest)) return Mismatch("feature digest count");
-
   std::string text;
   if (seal.holdout_encoding == kHoldoutEncodingColumns) {
     UNSEEN_ASSIGN_OR_RETURN(text, DecodeHoldoutRows(*plain));
@@ -51,6 +42,22 @@ Result<uint64_t> CheckSealedHoldout(const Ledger& ledger, const KeySpec& spec) {
     return Status::Corruption("entry " + std::to_string(seal.entry_seq) +
                               " (seal): unknown holdout encoding '" + seal.holdout_encoding + "'");
   }
+  return text;
+}
+
+Result<uint64_t> CheckSealedHoldout(const Ledger& ledger, const KeySpec& spec) {
+  UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(ledger));
+  if (!st.seal) return Status::FailedPrecondition(ledger.path() + ": the ledger is not sealed yet");
+  const SealInfo& seal = *st.seal;
+  UNSEEN_ASSIGN_OR_RETURN(Key key, KeyForSeal(spec, seal, st.ledger_id));
+  UNSEEN_ASSIGN_OR_RETURN(std::string text, OpenHoldoutText(ledger, st, key));
+  UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(seal.holdout_set));
+  UNSEEN_ASSIGN_OR_RETURN(RowSet holdout, RowSet::Deserialize(set_bytes));
+  std::vector<uint32_t> rows = holdout.ToVector();
+  UNSEEN_ASSIGN_OR_RETURN(std::string row_digests, ledger.GetBlob(st.row_digests));
+  UNSEEN_ASSIGN_OR_RETURN(std::string features, ledger.GetBlob(seal.holdout_feature_digests));
+  if (features.size() != rows.size() * sizeof(RowDigest)) return Mismatch("feature digest count");
+
   CsvOptions options;
   options.delimiter = st.source.delimiter;
   UNSEEN_ASSIGN_OR_RETURN(auto csv,
