@@ -3,36 +3,18 @@
 #include <algorithm>
 #include <cmath>
 #include <cstring>
+#include <future>
 #include <nlohmann/json.hpp>
 
 #include "harness/data/csv.h"
+#include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
+#include "harness/data/row_matcher.h"
 #include "harness/data/source_scan.h"
 
 namespace unseen {
 
 namespace {
-
-constexpr size_t kShownLines = 5;
-
-struct DigestRow {
-  RowDigest digest;
-  uint32_t row;
-  bool operator<(const DigestRow& o) const {
-    return std::memcmp(digest.data(), o.digest.data(), digest.size()) < 0 ||
-           (digest == o.digest && row < o.row);
-  }
-};
-
-std::vector<DigestRow> SortedDigests(std::string_view blob) {
-  std::vector<DigestRow> v(blob.size() / sizeof(RowDigest));
-  for (size_t i = 0; i < v.size(); ++i) {
-    std::memcpy(v[i].digest.data(), blob.data() + i * sizeof(RowDigest), sizeof(RowDigest));
-    v[i].row = static_cast<uint32_t>(i);
-  }
-  std::sort(v.begin(), v.end());
-  return v;
-}
 
 // The columns of the file, mapped to the source's by name.
 struct Layout {
@@ -55,6 +37,95 @@ Result<Layout> MapColumns(const CsvFile& csv, const SourceInfo& src) {
     }
   }
   return l;
+}
+
+// Appends the content bytes of a classified row (every column but the id, row_digest.h) to the
+// batch, marking where its target cell lies.
+void EncodeContent(const ClassifiedRow& cells, const std::vector<std::string_view>& canon,
+                   std::optional<size_t> id_col, size_t target_col, MatchBatch* b) {
+  size_t most = 0;
+  for (std::string_view cell : canon) most += MaxCanonicalCellSize(cell.size());
+  const size_t at = b->bytes.size();
+  b->bytes.resize(at + most);
+  char* const base = b->bytes.data();
+  char* w = base + at;
+  for (size_t c = 0; c < canon.size(); ++c) {
+    if (id_col && c == *id_col) continue;
+    if (c == target_col) b->target_begin.push_back(static_cast<uint32_t>(w - base));
+    w = EncodeClassifiedCell(cells.kinds[c], cells.numbers[c], canon[c], w);
+    if (c == target_col) b->target_end.push_back(static_cast<uint32_t>(w - base));
+  }
+  b->bytes.resize(static_cast<size_t>(w - base));
+  b->ends.push_back(static_cast<uint32_t>(b->bytes.size()));
+}
+
+// The class index of a target cell, by its canonical label. Numbers are looked up by their bits
+// among the few seen so far, so no label string is built per row.
+class ClassIndexer {
+ public:
+  explicit ClassIndexer(std::vector<std::string> labels) : labels_(std::move(labels)) {}
+
+  // The index of the cell's label, or -1 when it is not one of the source's classes.
+  int Of(CellKind kind, double number, std::string_view cell) {
+    if (kind != CellKind::kNumber) return Find(cell);
+    if (number == 0) number = 0;  // -0 and +0 are one label
+    uint64_t bits;
+    std::memcpy(&bits, &number, sizeof bits);
+    for (const auto& [b, index] : numbers_) {
+      if (b == bits) return index;
+    }
+    const int index = Find(CanonicalLabel(cell));
+    if (numbers_.size() < kCachedNumbers) numbers_.emplace_back(bits, index);
+    return index;
+  }
+
+ private:
+  static constexpr size_t kCachedNumbers = 64;
+  int Find(std::string_view label) const {
+    auto it = std::lower_bound(labels_.begin(), labels_.end(), label,
+                               [](const std::string& a, std::string_view b) { return a < b; });
+    return it != labels_.end() && *it == label ? static_cast<int>(it - labels_.begin()) : -1;
+  }
+  const std::vector<std::string> labels_;  // sorted
+  std::vector<std::pair<uint64_t, int>> numbers_;
+};
+
+// Appends a row's feature values to the frame and its target (class index or value) to
+// *target when `target_col` is set. InvalidArgument, without the location, for a value that
+// does not fit its column.
+Status AppendValues(const ClassifiedRow& cells, const std::vector<std::string_view>& canon,
+                    const std::vector<size_t>& feature_cols, ClassIndexer* classes, TaskKind task, std::optional<size_t> target_col, Frame* frame,
+                    std::vector<double>* target) {
+  for (size_t k = 0; k < feature_cols.size(); ++k) {
+    const size_t c = feature_cols[k];
+    FrameColumn& col = frame->columns[k];
+    if (col.numeric) {
+      if (cells.kinds[c] == CellKind::kText) {
+        return Status::InvalidArgument("column '" + col.name + "' holds '" + std::string(canon[c]) +
+                                       "'; expected a number");
+      }
+      col.num.push_back(cells.kinds[c] == CellKind::kNumber ? cells.numbers[c] : NAN);
+    } else {
+      col.cat.push_back(IsMissing(canon[c]) ? std::string() : std::string(canon[c]));
+    }
+  }
+  if (!target_col) return Status::OK();
+  std::string_view cell = canon[*target_col];
+  if (task == TaskKind::kClassification) {
+    const int index = classes->Of(cells.kinds[*target_col], cells.numbers[*target_col], cell);
+    if (index < 0) {
+      return Status::InvalidArgument("target '" + std::string(cell) +
+                                     "' is not one of the source's classes");
+    }
+    target->push_back(index);
+  } else {
+    if (cells.kinds[*target_col] != CellKind::kNumber) {
+      return Status::InvalidArgument("target '" + std::string(cell) +
+                                     "' is not a number; a regression task expects numbers");
+    }
+    target->push_back(cells.numbers[*target_col]);
+  }
+  return Status::OK();
 }
 
 }  // namespace
@@ -84,12 +155,20 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
     return Status::InvalidArgument(path + ": expected every column of the source (development rows)");
   }
 
+  // The file's SHA-256 runs on another thread, over the same mapping the rows are read from, so
+  // the digest recorded is that of the bytes used.
+  const CsvFile& file = *csv;
+  std::future<Result<FileDigest>> file_digest =
+      std::async(std::launch::async, [&file] { return file.Sha256(); });
   // Digests to match against: content digests of all rows, feature digests of the holdout.
-  UNSEEN_ASSIGN_OR_RETURN(std::string content_blob, ledger.GetBlob(st.content_digests));
-  std::vector<DigestRow> content = SortedDigests(content_blob);
-  content_blob = std::string();
-  UNSEEN_ASSIGN_OR_RETURN(std::string feature_blob, ledger.GetBlob(st.seal->holdout_feature_digests));
-  std::vector<DigestRow> holdout_features = SortedDigests(feature_blob);
+  UNSEEN_ASSIGN_OR_RETURN(const std::string content_blob, ledger.GetBlob(st.content_digests));
+  if (content_blob.size() != src.rows * sizeof(RowDigest)) {
+    return Status::Corruption("the content digest list does not match the source's row count");
+  }
+  const DigestIndex content(content_blob);
+  UNSEEN_ASSIGN_OR_RETURN(const std::string feature_blob,
+                          ledger.GetBlob(st.seal->holdout_feature_digests));
+  const DigestIndex holdout_features(feature_blob);
   UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
   UNSEEN_ASSIGN_OR_RETURN(RowSet holdout, RowSet::Deserialize(set_bytes));
 
@@ -103,94 +182,54 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
     out.features.columns.push_back(
         FrameColumn{src.columns[s].name, src.columns[s].type == ColumnType::kNumeric, {}, {}});
   }
-  std::vector<std::string> labels = ClassLabels(src);
+  ClassIndexer classes(ClassLabels(src));
   std::vector<double> target;
-  std::vector<bool> used(src.rows, false);
   std::vector<std::string_view> canon(src.columns.size());  // the row in source column order
-  std::vector<std::string_view> feature_view;
-  RowDigester content_digester(id_col ? std::vector<size_t>{*id_col} : std::vector<size_t>{});
-  std::vector<size_t> skip_feature = {target_col};
-  if (id_col) skip_feature.push_back(*id_col);
-  RowDigester feature_digester(skip_feature);
-  std::vector<uint32_t> dev_rows;
+  const std::optional<size_t> group_col = src.ColumnOf(ColumnRole::kGroup);
+  const bool has_group = group_col && layout.file_of_source[*group_col] >= 0;
+  const bool has_id = id_col && layout.file_of_source[*id_col] >= 0;
 
+  // This thread reads the rows and their values; the matcher hashes and looks them up on
+  // another. A holdout row is refused even when the file has other errors, so after the first
+  // bad value the rows are still read and matched, and their values no longer kept.
+  RowMatcher matcher(content, holdout_features, holdout, src.rows, full_row && labelled,
+                     purpose == DataPurpose::kDevRows);
+  std::unique_ptr<MatchBatch> batch = matcher.NewBatch();
+  Status bad_value;
+  ClassifiedRow cells;  // each cell parsed once, for the digests and the values
   Status s = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
     const auto& f = *r.fields;
     for (size_t c = 0; c < src.columns.size(); ++c) {
       int fc = layout.file_of_source[c];
       canon[c] = fc >= 0 ? f[static_cast<size_t>(fc)] : std::string_view();
     }
-    // Is it a holdout row? By content when the row is complete, by features always.
-    bool is_holdout = false, is_dev = false;
-    uint32_t dev_row = 0;
-    if (full_row && labelled) {
-      DigestRow key{content_digester.Digest(canon), 0};
-      for (auto it = std::lower_bound(content.begin(), content.end(), key);
-           it != content.end() && it->digest == key.digest; ++it) {
-        if (holdout.Contains(it->row)) {
-          is_holdout = true;
-        } else if (!is_dev && !used[it->row]) {
-          is_dev = true;
-          dev_row = it->row;
-        }
-      }
-      if (is_dev) is_holdout = false;  // an exact duplicate of a dev row is that dev row
+    cells.Classify(canon);
+    EncodeContent(cells, canon, id_col, target_col, batch.get());
+    batch->lines.push_back(r.line);
+    if (batch->rows() == RowMatcher::kBatchRows) {
+      matcher.Add(std::move(batch));
+      batch = matcher.NewBatch();
     }
-    if (!is_dev) {
-      DigestRow key{feature_digester.Digest(canon), 0};
-      auto it = std::lower_bound(holdout_features.begin(), holdout_features.end(), key);
-      if (it != holdout_features.end() && it->digest == key.digest) is_holdout = true;
-    }
-    if (is_holdout || (purpose == DataPurpose::kDevRows && !is_dev)) {
-      (is_holdout ? refusal->holdout_rows : refusal->not_dev_rows)++;
-      if (refusal->first_lines.size() < kShownLines) refusal->first_lines.push_back(r.line);
+    if (!bad_value.ok()) return Status::OK();
+    bad_value = AppendValues(cells, canon, feature_cols, &classes, src.task,
+                             labelled ? std::optional<size_t>(target_col) : std::nullopt,
+                             &out.features, &target);
+    if (!bad_value.ok()) {
+      bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
       return Status::OK();
     }
-    if (is_dev) {
-      used[dev_row] = true;
-      dev_rows.push_back(dev_row);
-    }
     out.lines.push_back(r.line);
-    out.ids.push_back(id_col && layout.file_of_source[*id_col] >= 0 ? std::string(canon[*id_col])
-                                                                  : std::to_string(r.index));
-    if (auto g = src.ColumnOf(ColumnRole::kGroup); g && layout.file_of_source[*g] >= 0) {
-      out.groups.emplace_back(canon[*g]);
-    }
-    for (size_t k = 0; k < feature_cols.size(); ++k) {
-      std::string_view cell = canon[feature_cols[k]];
-      FrameColumn& col = out.features.columns[k];
-      double v = NAN;
-      if (col.numeric) {
-        if (!IsMissing(cell) && !ParseNumber(cell, &v)) {
-          return Status::InvalidArgument(csv->Location(r.offset) + ": column '" + col.name +
-                                         "' holds '" + std::string(cell) + "'; expected a number");
-        }
-        col.num.push_back(v);
-      } else {
-        col.cat.push_back(IsMissing(cell) ? std::string() : std::string(cell));
-      }
-    }
-    if (labelled) {
-      std::string_view cell = canon[target_col];
-      if (src.task == TaskKind::kClassification) {
-        auto it = std::lower_bound(labels.begin(), labels.end(), CanonicalLabel(cell));
-        if (it == labels.end() || *it != CanonicalLabel(cell)) {
-          return Status::InvalidArgument(csv->Location(r.offset) + ": target '" + std::string(cell) +
-                                         "' is not one of the source's classes");
-        }
-        target.push_back(static_cast<double>(it - labels.begin()));
-      } else {
-        double v;
-        if (!ParseNumber(cell, &v)) {
-          return Status::InvalidArgument(csv->Location(r.offset) + ": target '" + std::string(cell) +
-                                         "' is not a number; a regression task expects numbers");
-        }
-        target.push_back(v);
-      }
-    }
+    out.ids.push_back(has_id ? std::string(canon[*id_col]) : std::to_string(r.index));
+    if (has_group) out.groups.emplace_back(canon[*group_col]);
     return Status::OK();
   });
+  if (batch->rows() > 0) matcher.Add(std::move(batch));
+  MatchResult matched = matcher.Finish();
   UNSEEN_RETURN_IF_ERROR(s);
+  refusal->holdout_rows = matched.holdout_rows;
+  refusal->not_dev_rows = matched.other_rows;
+  refusal->first_lines = matched.first_lines;
+  std::vector<uint32_t> dev_rows = std::move(matched.dev_rows);
   if (refusal->holdout_rows > 0 || refusal->not_dev_rows > 0) {
     std::string lines;
     for (uint64_t l : refusal->first_lines) lines += (lines.empty() ? "" : ", ") + std::to_string(l);
@@ -203,12 +242,13 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
                            " rows are not development rows of this ledger's source (first lines: " +
                            lines + "); expected rows from the dev file");
   }
+  UNSEEN_RETURN_IF_ERROR(bad_value);
   if (out.lines.empty()) return Status::InvalidArgument(path + ": no data rows");
   out.target = Eigen::Map<Eigen::VectorXd>(target.data(), static_cast<Eigen::Index>(target.size()));
   out.source_rows = dev_rows;
   std::sort(dev_rows.begin(), dev_rows.end());
   out.rows_read = RowSet::FromSorted(dev_rows);
-  UNSEEN_ASSIGN_OR_RETURN(FileDigest fd, Sha256File(path));
+  UNSEEN_ASSIGN_OR_RETURN(FileDigest fd, file_digest.get());
   out.file_sha256 = fd.sha256;
   return out;
 }

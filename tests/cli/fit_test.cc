@@ -167,6 +167,28 @@ TEST_F(FitTest, HoldoutCopiedInUnderAnotherNameIsRefused) {
   EXPECT_EQ(History().back()["body"]["command"], "predict");
 }
 
+TEST_F(FitTest, HoldoutRowsAreRefusedEvenWhenTheFileHasABadValue) {
+  ASSERT_EQ(Fit("m").exit_code, 0);
+  // A bad value alone is a clear error (exit 2) naming the file, line and column.
+  WriteFile(dir_.File("bad.csv"), "id,site,day,a,b\nn1,s1,3,not-a-number,2\n");
+  RunResult bad = RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("bad.csv") +
+                            " --out " + Q("p.csv"));
+  EXPECT_EQ(bad.exit_code, 2) << bad.err;
+  EXPECT_NE(bad.err.find("bad.csv:2:"), std::string::npos) << bad.err;
+  EXPECT_NE(bad.err.find("expected a number"), std::string::npos) << bad.err;
+  // The same bad row ahead of holdout rows: the holdout rows are what is refused and recorded.
+  std::string rows = HoldoutRows(/*new_ids=*/true, /*drop_target=*/true);
+  rows.insert(rows.find('\n') + 1, "n1,s1,3,not-a-number,2\n");
+  WriteFile(dir_.File("mixed.csv"), rows);
+  RunResult mixed = RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("mixed.csv") +
+                              " --out " + Q("p.csv"));
+  EXPECT_EQ(mixed.exit_code, 1) << mixed.err;
+  EXPECT_NE(mixed.err.find("rows match sealed holdout rows (first lines: 3, 4, 5, 6, 7)"),
+            std::string::npos)
+      << mixed.err;
+  EXPECT_EQ(History().back()["kind"], "refusal");
+}
+
 TEST_F(FitTest, BlendFittedOnItsMembersTrainingRowsIsRefused) {
   // Both members read every dev row; the blend's partition is carved afterwards.
   ASSERT_EQ(Fit("m1").exit_code, 0);

@@ -1,0 +1,102 @@
+// RowMatcher: decides, row by row, whether the rows of a file brought in are rows of the source
+// and whether they touch the sealed holdout, on a thread of its own while the caller goes on
+// reading the file.
+//
+// The caller encodes each row's canonical content bytes (row_digest.h: every column but the id)
+// and hands them over in batches, in file order. The matcher hashes each row and looks it up:
+//   - by content digest among all the source's rows (when the file has every column): a match
+//     with a holdout row marks the row as a holdout row, unless it also matches a development
+//     row not matched yet, which it then is (the first such in row order);
+//   - by feature digest (the content bytes less the target cell) among the holdout's rows,
+//     for every row not matched to a development row.
+// Batches are processed one after another in the order added, so the result is what one
+// thread reading the file in order would decide. Add() and Finish() must be called from one
+// thread; the indexes and the row set must outlive the matcher and not change.
+#ifndef UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
+#define UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
+
+#include <condition_variable>
+#include <cstdint>
+#include <deque>
+#include <memory>
+#include <mutex>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "harness/data/digest_index.h"
+#include "storage/row_set.h"
+
+namespace unseen {
+
+// Rows as encoded by the caller: row i's content bytes are bytes[ends[i-1], ends[i]) (from 0
+// for i = 0), and within them its target cell is [target_begin[i], target_end[i]).
+struct MatchBatch {
+  std::string bytes;
+  std::vector<uint32_t> ends, target_begin, target_end;
+  std::vector<uint64_t> lines;  // the file line of each row
+  size_t rows() const { return ends.size(); }
+  void Clear() {
+    bytes.clear();
+    ends.clear();
+    target_begin.clear();
+    target_end.clear();
+    lines.clear();
+  }
+};
+
+struct MatchResult {
+  std::vector<uint32_t> dev_rows;     // the source row of each row matched to a development row
+  bool every_row_dev = true;          // whether every row was matched to a development row
+  uint64_t holdout_rows = 0;          // rows that match a holdout row
+  uint64_t other_rows = 0;            // rows that match neither (when every row must be dev)
+  std::vector<uint64_t> first_lines;  // lines of the first few rows counted above
+};
+
+class RowMatcher {
+ public:
+  // `content` indexes the content digests of all `source_rows` rows; `holdout_features` the
+  // feature digests of the holdout rows; `holdout` is the holdout's row set. With
+  // `by_content` false (the file lacks a column), rows are matched by features only and none
+  // is a development row. With `dev_required`, a row matched to no development row is
+  // counted in other_rows.
+  RowMatcher(const DigestIndex& content, const DigestIndex& holdout_features, const RowSet& holdout,
+             uint64_t source_rows, bool by_content, bool dev_required);
+  ~RowMatcher();  // Finish()es if needed
+  RowMatcher(const RowMatcher&) = delete;
+  RowMatcher& operator=(const RowMatcher&) = delete;
+
+  // A cleared batch to fill; give it back with Add(). Blocks while two batches wait.
+  std::unique_ptr<MatchBatch> NewBatch();
+  void Add(std::unique_ptr<MatchBatch> batch);
+  // Waits until every batch added is matched, stops the thread and returns the result.
+  // Call once.
+  MatchResult Finish();
+
+  // Rows per batch: large enough that handing over costs nothing, small enough that the
+  // thread starts early.
+  static constexpr size_t kBatchRows = 4096;
+
+ private:
+  void Work();
+  void Match(const MatchBatch& b);
+
+  const DigestIndex& content_;
+  const DigestIndex& holdout_features_;
+  const RowSet& holdout_;
+  const bool by_content_, dev_required_;
+  std::vector<bool> used_;  // source rows already matched
+  MatchResult result_;
+
+  std::mutex mu_;
+  std::condition_variable cv_;
+  std::deque<std::unique_ptr<MatchBatch>> queue_;  // added, not yet matched
+  std::vector<std::unique_ptr<MatchBatch>> free_;  // matched, for NewBatch()
+  size_t outstanding_ = 0;  // handed out by NewBatch() and not yet returned to free_
+  bool stopping_ = false;
+  std::thread worker_;  // last: starts after every member above exists
+};
+
+}  // namespace unseen
+
+#endif  // UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
