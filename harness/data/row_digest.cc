@@ -21,14 +21,7 @@ void AppendClassifiedCell(CellKind kind, double v, std::string_view cell, std::s
 
 RowDigester::RowDigester(std::vector<size_t> skip) : skip_list_(std::move(skip)) {}
 
-void ClassifiedRow::Classify(const std::vector<std::string_view>& fields) {
-  kinds.resize(fields.size());
-  numbers.resize(fields.size());
-  for (size_t c = 0; c < fields.size(); ++c) kinds[c] = ClassifyCell(fields[c], &numbers[c]);
-}
-
-template <class Classify>
-RowDigest RowDigester::Encode(const std::vector<std::string_view>& fields, Classify&& classify) {
+RowDigest RowDigester::Digest(const std::vector<std::string_view>& fields) {
   if (skip_.size() != fields.size()) {
     skip_.assign(fields.size(), false);
     for (size_t c : skip_list_) {
@@ -43,21 +36,10 @@ RowDigest RowDigester::Encode(const std::vector<std::string_view>& fields, Class
   for (size_t c = 0; c < fields.size(); ++c) {
     if (skip_[c]) continue;
     double v = 0;
-    const CellKind kind = classify(c, &v);
+    const CellKind kind = ClassifyCell(fields[c], &v);
     w = EncodeClassifiedCell(kind, v, fields[c], w);
   }
   return TruncateToRowDigest(Sha256Of(begin, static_cast<size_t>(w - begin)));
-}
-
-RowDigest RowDigester::Digest(const std::vector<std::string_view>& fields) {
-  return Encode(fields, [&](size_t c, double* v) { return ClassifyCell(fields[c], v); });
-}
-
-RowDigest RowDigester::Digest(const ClassifiedRow& row, const std::vector<std::string_view>& fields) {
-  return Encode(fields, [&](size_t c, double* v) {
-    *v = row.numbers[c];
-    return row.kinds[c];
-  });
 }
 
 }  // namespace unseen

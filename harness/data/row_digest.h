@@ -85,29 +85,14 @@ inline char* EncodeClassifiedCell(CellKind kind, double v, std::string_view cell
   return out;
 }
 
-// A row's cells classified once, for a caller that needs both digests and values (each cell's
-// number is parsed once, not once per digest and again for the value).
-struct ClassifiedRow {
-  std::vector<CellKind> kinds;
-  std::vector<double> numbers;  // the value of each kNumber cell; unspecified otherwise
-
-  void Classify(const std::vector<std::string_view>& fields);
-};
-
 // Hashes rows; reuses its buffers, so keep one per thread.
 class RowDigester {
  public:
   // `skip` lists column indexes left out of the digest (e.g. id, target).
   explicit RowDigester(std::vector<size_t> skip = {});
   RowDigest Digest(const std::vector<std::string_view>& fields);
-  // The same digest for a row whose cells `row` classified.
-  // REQUIRES: row.kinds.size() == fields.size().
-  RowDigest Digest(const ClassifiedRow& row, const std::vector<std::string_view>& fields);
 
  private:
-  template <class Classify>
-  RowDigest Encode(const std::vector<std::string_view>& fields, Classify&& classify);
-
   std::vector<bool> skip_;
   std::vector<size_t> skip_list_;
   std::string buffer_;

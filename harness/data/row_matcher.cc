@@ -1,5 +1,7 @@
 #include "harness/data/row_matcher.h"
 
+#include <cstring>
+
 #include "storage/digest.h"
 
 namespace unseen {
@@ -11,12 +13,32 @@ constexpr size_t kMaxOutstanding = 3;
 
 }  // namespace
 
+size_t MatchBatch::AddRow(const std::vector<std::string_view>& cells, uint64_t line) {
+  const size_t at = kinds.size();
+  kinds.resize(at + columns);
+  numbers.resize(at + columns);
+  for (size_t c = 0; c < columns; ++c) {
+    const CellKind kind = ClassifyCell(cells[c], &numbers[at + c]);
+    kinds[at + c] = kind;
+    if (kind == CellKind::kText) {
+      const uint32_t n = static_cast<uint32_t>(cells[c].size());
+      text.append(reinterpret_cast<const char*>(&n), sizeof n);
+      text.append(cells[c]);
+    }
+  }
+  lines.push_back(line);
+  return at;
+}
+
 RowMatcher::RowMatcher(const DigestIndex& content, const DigestIndex& holdout_features,
-                       const RowSet& holdout, uint64_t source_rows, bool by_content,
-                       bool dev_required)
+                       const RowSet& holdout, uint64_t source_rows, size_t columns, size_t target,
+                       std::optional<size_t> id, bool by_content, bool dev_required)
     : content_(content),
       holdout_features_(holdout_features),
       holdout_(holdout),
+      columns_(columns),
+      target_(target),
+      id_(id),
       by_content_(by_content),
       dev_required_(dev_required),
       used_(by_content ? source_rows : 0, false),
@@ -30,10 +52,15 @@ std::unique_ptr<MatchBatch> RowMatcher::NewBatch() {
   std::unique_lock<std::mutex> lock(mu_);
   cv_.wait(lock, [this] { return outstanding_ < kMaxOutstanding; });
   ++outstanding_;
-  if (free_.empty()) return std::make_unique<MatchBatch>();
+  if (free_.empty()) {
+    auto b = std::make_unique<MatchBatch>();
+    b->columns = columns_;
+    return b;
+  }
   std::unique_ptr<MatchBatch> b = std::move(free_.back());
   free_.pop_back();
   b->Clear();
+  b->columns = columns_;
   return b;
 }
 
@@ -75,16 +102,59 @@ void RowMatcher::Work() {
   }
 }
 
+void RowMatcher::Encode(const MatchBatch& b) {
+  bytes_.clear();
+  ends_.clear();
+  target_begin_.clear();
+  target_end_.clear();
+  const char* text = b.text.data();
+  for (size_t r = 0; r < b.rows(); ++r) {
+    const size_t first = r * columns_;
+    // At most 9 bytes a cell, and 5 more than its bytes for a text cell.
+    size_t most = 9 * columns_;
+    const char* t = text;
+    for (size_t c = 0; c < columns_; ++c) {
+      if (b.kinds[first + c] != CellKind::kText) continue;
+      uint32_t n;
+      std::memcpy(&n, t, sizeof n);
+      most += n + 5;
+      t += sizeof n + n;
+    }
+    const size_t at = bytes_.size();
+    bytes_.resize(at + most);
+    char* const base = bytes_.data();
+    char* w = base + at;
+    for (size_t c = 0; c < columns_; ++c) {
+      const CellKind kind = b.kinds[first + c];
+      std::string_view cell;
+      if (kind == CellKind::kText) {
+        uint32_t n;
+        std::memcpy(&n, text, sizeof n);
+        cell = std::string_view(text + sizeof n, n);
+        text += sizeof n + n;
+      }
+      if (id_ && c == *id_) continue;
+      if (c == target_) target_begin_.push_back(static_cast<uint32_t>(w - base));
+      w = EncodeClassifiedCell(kind, b.numbers[first + c], cell, w);
+      if (c == target_) target_end_.push_back(static_cast<uint32_t>(w - base));
+    }
+    bytes_.resize(static_cast<size_t>(w - base));
+    ends_.push_back(static_cast<uint32_t>(bytes_.size()));
+  }
+}
+
 void RowMatcher::Match(const MatchBatch& b) {
+  Encode(b);
   const size_t n = b.rows();
-  auto begin_of = [&](size_t i) -> size_t { return i == 0 ? 0 : b.ends[i - 1]; };
+  auto begin_of = [&](size_t i) -> size_t { return i == 0 ? 0 : ends_[i - 1]; };
   // Content digests first, two rows at a time where their lengths agree (numeric rows mostly
   // do): the two hashes then run interleaved.
-  std::vector<RowDigest> content(by_content_ ? n : 0);
+  std::vector<RowDigest>& content = content_digests_;
+  content.resize(by_content_ ? n : 0);
   for (size_t i = 0; by_content_ && i < n;) {
-    const std::string_view a(b.bytes.data() + begin_of(i), b.ends[i] - begin_of(i));
-    if (i + 1 < n && b.ends[i + 1] - b.ends[i] == a.size()) {
-      const std::string_view c(b.bytes.data() + b.ends[i], a.size());
+    const std::string_view a(bytes_.data() + begin_of(i), ends_[i] - begin_of(i));
+    if (i + 1 < n && ends_[i + 1] - ends_[i] == a.size()) {
+      const std::string_view c(bytes_.data() + ends_[i], a.size());
       Digest256 da, dc;
       Sha256OfTwo(a, c, &da, &dc);
       content[i] = TruncateToRowDigest(da);
@@ -114,8 +184,8 @@ void RowMatcher::Match(const MatchBatch& b) {
     }
     if (!is_dev) {
       Sha256 features;
-      features.Update(b.bytes.data() + begin_of(i), b.target_begin[i] - begin_of(i));
-      features.Update(b.bytes.data() + b.target_end[i], b.ends[i] - b.target_end[i]);
+      features.Update(bytes_.data() + begin_of(i), target_begin_[i] - begin_of(i));
+      features.Update(bytes_.data() + target_end_[i], ends_[i] - target_end_[i]);
       if (holdout_features_.Contains(TruncateToRowDigest(features.Finish()))) is_holdout = true;
     }
     if (is_dev) {

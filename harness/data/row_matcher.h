@@ -2,12 +2,12 @@
 // and whether they touch the sealed holdout, on a thread of its own while the caller goes on
 // reading the file.
 //
-// The caller encodes each row's canonical content bytes (row_digest.h: every column but the id)
-// and hands them over in batches, in file order. The matcher hashes each row and looks it up:
+// The caller classifies each row's cells and hands them over in batches, in file order. The
+// matcher encodes each row's canonical bytes (row_digest.h), hashes them and looks them up:
 //   - by content digest among all the source's rows (when the file has every column): a match
 //     with a holdout row marks the row as a holdout row, unless it also matches a development
 //     row not matched yet, which it then is (the first such in row order);
-//   - by feature digest (the content bytes less the target cell) among the holdout's rows,
+//   - by feature digest (every column but the id and the target) among the holdout's rows,
 //     for every row not matched to a development row.
 // Batches are processed one after another in the order added, so the result is what one
 // thread reading the file in order would decide. Add() and Finish() must be called from one
@@ -20,27 +20,42 @@
 #include <deque>
 #include <memory>
 #include <mutex>
+#include <optional>
 #include <string>
 #include <thread>
 #include <vector>
 
 #include "harness/data/digest_index.h"
+#include "harness/data/row_digest.h"
 #include "storage/row_set.h"
 
 namespace unseen {
 
-// Rows as encoded by the caller: row i's content bytes are bytes[ends[i-1], ends[i]) (from 0
-// for i = 0), and within them its target cell is [target_begin[i], target_end[i]).
+// Rows as classified by the caller, cells in source column order: cell c of row r is
+// kinds[r * columns + c], with its value at numbers[r * columns + c] when it is a number. The
+// bytes of the text cells follow one another in `text`, in cell order, each after its length
+// (4 bytes, native order). The caller reads its values back from the same arrays, so each cell
+// is parsed once.
 struct MatchBatch {
-  std::string bytes;
-  std::vector<uint32_t> ends, target_begin, target_end;
+  size_t columns = 0;
+  std::vector<CellKind> kinds;
+  std::vector<double> numbers;
+  std::string text;
   std::vector<uint64_t> lines;  // the file line of each row
-  size_t rows() const { return ends.size(); }
+
+  // Rows per batch: large enough that handing over costs nothing, small enough that the
+  // matcher starts early; a batch is also handed over past kMaxText text bytes.
+  static constexpr size_t kRows = 4096;
+  static constexpr size_t kMaxText = size_t{64} << 20;
+
+  size_t rows() const { return lines.size(); }
+  bool full() const { return rows() >= kRows || text.size() >= kMaxText; }
+  // Classifies a row of `columns` cells and appends it; returns the offset of its first cell.
+  size_t AddRow(const std::vector<std::string_view>& cells, uint64_t line);
   void Clear() {
-    bytes.clear();
-    ends.clear();
-    target_begin.clear();
-    target_end.clear();
+    kinds.clear();
+    numbers.clear();
+    text.clear();
     lines.clear();
   }
 };
@@ -56,12 +71,14 @@ struct MatchResult {
 class RowMatcher {
  public:
   // `content` indexes the content digests of all `source_rows` rows; `holdout_features` the
-  // feature digests of the holdout rows; `holdout` is the holdout's row set. With
+  // feature digests of the holdout rows; `holdout` is the holdout's row set. `columns` is the
+  // source's column count, `target` its target column and `id` its id column, if any. With
   // `by_content` false (the file lacks a column), rows are matched by features only and none
   // is a development row. With `dev_required`, a row matched to no development row is
   // counted in other_rows.
   RowMatcher(const DigestIndex& content, const DigestIndex& holdout_features, const RowSet& holdout,
-             uint64_t source_rows, bool by_content, bool dev_required);
+             uint64_t source_rows, size_t columns, size_t target, std::optional<size_t> id,
+             bool by_content, bool dev_required);
   ~RowMatcher();  // Finish()es if needed
   RowMatcher(const RowMatcher&) = delete;
   RowMatcher& operator=(const RowMatcher&) = delete;
@@ -73,20 +90,26 @@ class RowMatcher {
   // Call once.
   MatchResult Finish();
 
-  // Rows per batch: large enough that handing over costs nothing, small enough that the
-  // thread starts early.
-  static constexpr size_t kBatchRows = 4096;
-
  private:
   void Work();
   void Match(const MatchBatch& b);
+  // Encodes the rows of `b` into bytes_, ends_, target_begin_ and target_end_.
+  void Encode(const MatchBatch& b);
 
   const DigestIndex& content_;
   const DigestIndex& holdout_features_;
   const RowSet& holdout_;
+  const size_t columns_, target_;
+  const std::optional<size_t> id_;
   const bool by_content_, dev_required_;
   std::vector<bool> used_;  // source rows already matched
   MatchResult result_;
+  // The batch being matched, encoded: row i's content bytes (every column but the id) are
+  // bytes_[ends_[i-1], ends_[i]) (from 0 for i = 0), its target cell [target_begin_[i],
+  // target_end_[i]).
+  std::string bytes_;
+  std::vector<uint32_t> ends_, target_begin_, target_end_;
+  std::vector<RowDigest> content_digests_;
 
   std::mutex mu_;
   std::condition_variable cv_;

@@ -39,26 +39,6 @@ Result<Layout> MapColumns(const CsvFile& csv, const SourceInfo& src) {
   return l;
 }
 
-// Appends the content bytes of a classified row (every column but the id, row_digest.h) to the
-// batch, marking where its target cell lies.
-void EncodeContent(const ClassifiedRow& cells, const std::vector<std::string_view>& canon,
-                   std::optional<size_t> id_col, size_t target_col, MatchBatch* b) {
-  size_t most = 0;
-  for (std::string_view cell : canon) most += MaxCanonicalCellSize(cell.size());
-  const size_t at = b->bytes.size();
-  b->bytes.resize(at + most);
-  char* const base = b->bytes.data();
-  char* w = base + at;
-  for (size_t c = 0; c < canon.size(); ++c) {
-    if (id_col && c == *id_col) continue;
-    if (c == target_col) b->target_begin.push_back(static_cast<uint32_t>(w - base));
-    w = EncodeClassifiedCell(cells.kinds[c], cells.numbers[c], canon[c], w);
-    if (c == target_col) b->target_end.push_back(static_cast<uint32_t>(w - base));
-  }
-  b->bytes.resize(static_cast<size_t>(w - base));
-  b->ends.push_back(static_cast<uint32_t>(b->bytes.size()));
-}
-
 // The class index of a target cell, by its canonical label. Numbers are looked up by their bits
 // among the few seen so far, so no label string is built per row.
 class ClassIndexer {
@@ -93,18 +73,19 @@ class ClassIndexer {
 // Appends a row's feature values to the frame and its target (class index or value) to
 // *target when `target_col` is set. InvalidArgument, without the location, for a value that
 // does not fit its column.
-Status AppendValues(const ClassifiedRow& cells, const std::vector<std::string_view>& canon,
+Status AppendValues(const CellKind* kinds, const double* numbers,
+                    const std::vector<std::string_view>& canon,
                     const std::vector<size_t>& feature_cols, ClassIndexer* classes, TaskKind task, std::optional<size_t> target_col, Frame* frame,
                     std::vector<double>* target) {
   for (size_t k = 0; k < feature_cols.size(); ++k) {
     const size_t c = feature_cols[k];
     FrameColumn& col = frame->columns[k];
     if (col.numeric) {
-      if (cells.kinds[c] == CellKind::kText) {
+      if (kinds[c] == CellKind::kText) {
         return Status::InvalidArgument("column '" + col.name + "' holds '" + std::string(canon[c]) +
                                        "'; expected a number");
       }
-      col.num.push_back(cells.kinds[c] == CellKind::kNumber ? cells.numbers[c] : NAN);
+      col.num.push_back(kinds[c] == CellKind::kNumber ? numbers[c] : NAN);
     } else {
       col.cat.push_back(IsMissing(canon[c]) ? std::string() : std::string(canon[c]));
     }
@@ -112,18 +93,18 @@ Status AppendValues(const ClassifiedRow& cells, const std::vector<std::string_vi
   if (!target_col) return Status::OK();
   std::string_view cell = canon[*target_col];
   if (task == TaskKind::kClassification) {
-    const int index = classes->Of(cells.kinds[*target_col], cells.numbers[*target_col], cell);
+    const int index = classes->Of(kinds[*target_col], numbers[*target_col], cell);
     if (index < 0) {
       return Status::InvalidArgument("target '" + std::string(cell) +
                                      "' is not one of the source's classes");
     }
     target->push_back(index);
   } else {
-    if (cells.kinds[*target_col] != CellKind::kNumber) {
+    if (kinds[*target_col] != CellKind::kNumber) {
       return Status::InvalidArgument("target '" + std::string(cell) +
                                      "' is not a number; a regression task expects numbers");
     }
-    target->push_back(cells.numbers[*target_col]);
+    target->push_back(numbers[*target_col]);
   }
   return Status::OK();
 }
@@ -192,35 +173,35 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   // This thread reads the rows and their values; the matcher hashes and looks them up on
   // another. A holdout row is refused even when the file has other errors, so after the first
   // bad value the rows are still read and matched, and their values no longer kept.
-  RowMatcher matcher(content, holdout_features, holdout, src.rows, full_row && labelled,
-                     purpose == DataPurpose::kDevRows);
+  RowMatcher matcher(content, holdout_features, holdout, src.rows, src.columns.size(), target_col,
+                     id_col, full_row && labelled, purpose == DataPurpose::kDevRows);
   std::unique_ptr<MatchBatch> batch = matcher.NewBatch();
   Status bad_value;
-  ClassifiedRow cells;  // each cell parsed once, for the digests and the values
   Status s = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
     const auto& f = *r.fields;
     for (size_t c = 0; c < src.columns.size(); ++c) {
       int fc = layout.file_of_source[c];
       canon[c] = fc >= 0 ? f[static_cast<size_t>(fc)] : std::string_view();
     }
-    cells.Classify(canon);
-    EncodeContent(cells, canon, id_col, target_col, batch.get());
-    batch->lines.push_back(r.line);
-    if (batch->rows() == RowMatcher::kBatchRows) {
+    // Each cell is parsed once, into the batch: the values are read back from there.
+    const size_t at = batch->AddRow(canon, r.line);
+    if (bad_value.ok()) {
+      bad_value = AppendValues(batch->kinds.data() + at, batch->numbers.data() + at, canon,
+                               feature_cols, &classes, src.task,
+                             labelled ? std::optional<size_t>(target_col) : std::nullopt,
+                               &out.features, &target);
+      if (bad_value.ok()) {
+        out.lines.push_back(r.line);
+        out.ids.push_back(has_id ? std::string(canon[*id_col]) : std::to_string(r.index));
+        if (has_group) out.groups.emplace_back(canon[*group_col]);
+      } else {
+        bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
+      }
+    }
+    if (batch->full()) {
       matcher.Add(std::move(batch));
       batch = matcher.NewBatch();
     }
-    if (!bad_value.ok()) return Status::OK();
-    bad_value = AppendValues(cells, canon, feature_cols, &classes, src.task,
-                             labelled ? std::optional<size_t>(target_col) : std::nullopt,
-                             &out.features, &target);
-    if (!bad_value.ok()) {
-      bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
-      return Status::OK();
-    }
-    out.lines.push_back(r.line);
-    out.ids.push_back(has_id ? std::string(canon[*id_col]) : std::to_string(r.index));
-    if (has_group) out.groups.emplace_back(canon[*group_col]);
     return Status::OK();
   });
   if (batch->rows() > 0) matcher.Add(std::move(batch));

@@ -5,34 +5,25 @@
 #include <string>
 #include <vector>
 
+#include "harness/data/row_digest.h"
 #include "storage/digest.h"
 
 namespace unseen {
 namespace {
 
-// A row as the matcher sees it: content bytes with a target cell in the middle.
-struct Row {
-  std::string before, target, after;
-  std::string Content() const { return before + target + after; }
-  std::string Features() const { return before + after; }
-};
+// Rows of three columns: id, a feature and the target (column 2).
+using Row = std::vector<std::string_view>;
+constexpr size_t kColumns = 3, kTarget = 2, kId = 0;
 
-std::string Digests(const std::vector<std::string>& texts) {
+// The digests the ledger stores, by the definition of row_digest.h.
+std::string Digests(const std::vector<Row>& rows, std::vector<size_t> skip) {
+  RowDigester digester(std::move(skip));
   std::string out;
-  for (const std::string& t : texts) {
-    const RowDigest d = TruncateToRowDigest(Sha256Of(t));
+  for (const Row& r : rows) {
+    const RowDigest d = digester.Digest(r);
     out.append(reinterpret_cast<const char*>(d.data()), d.size());
   }
   return out;
-}
-
-void AddRow(const Row& r, uint64_t line, MatchBatch* b) {
-  b->target_begin.push_back(static_cast<uint32_t>(b->bytes.size() + r.before.size()));
-  b->target_end.push_back(
-      static_cast<uint32_t>(b->bytes.size() + r.before.size() + r.target.size()));
-  b->bytes += r.Content();
-  b->ends.push_back(static_cast<uint32_t>(b->bytes.size()));
-  b->lines.push_back(line);
 }
 
 // The source (rows in order) and its holdout (row numbers, ascending), as the ledger holds them.
@@ -40,22 +31,22 @@ class Source {
  public:
   Source(std::vector<Row> rows, std::vector<uint32_t> holdout_rows)
       : rows_(std::move(rows)), holdout_(RowSet::FromSorted(holdout_rows)) {
-    std::vector<std::string> content, features;
-    for (const Row& r : rows_) content.push_back(r.Content());
-    for (uint32_t h : holdout_rows) features.push_back(rows_[h].Features());
-    content_blob_ = Digests(content);
-    feature_blob_ = Digests(features);
+    std::vector<Row> held;
+    for (uint32_t h : holdout_rows) held.push_back(rows_[h]);
+    content_blob_ = Digests(rows_, {kId});
+    feature_blob_ = Digests(held, {kId, kTarget});
     content_ = std::make_unique<DigestIndex>(content_blob_);
     features_ = std::make_unique<DigestIndex>(feature_blob_);
   }
 
-  // Matches `file` (lines from 2) in batches of RowMatcher::kBatchRows rows.
+  // Matches `file` (lines from 2) in full batches and a last part.
   MatchResult Match(const std::vector<Row>& file, bool by_content, bool dev_required) const {
-    RowMatcher m(*content_, *features_, holdout_, rows_.size(), by_content, dev_required);
+    RowMatcher m(*content_, *features_, holdout_, rows_.size(), kColumns, kTarget, kId, by_content,
+                 dev_required);
     std::unique_ptr<MatchBatch> b = m.NewBatch();
     for (size_t i = 0; i < file.size(); ++i) {
-      AddRow(file[i], i + 2, b.get());
-      if (b->rows() == RowMatcher::kBatchRows) {
+      b->AddRow(file[i], i + 2);
+      if (b->full()) {
         m.Add(std::move(b));
         b = m.NewBatch();
       }
@@ -71,7 +62,8 @@ class Source {
   std::unique_ptr<DigestIndex> content_, features_;
 };
 
-const Row kA{"a1", "|0|", "a2"}, kB{"b1", "|1|", "b2"}, kC{"c1", "|0|", "c2"};
+// Ids differ from the source's in the file: content digests leave the id out.
+const Row kA{"id1", "apple", "0"}, kB{"id2", "2.5", "1"}, kC{"id3", "pear", "0"};
 
 TEST(RowMatcherTest, DuplicatesAreMatchedToTheNextUnusedDevRowInRowOrder) {
   // Rows 0 and 2 are the same; row 3 is the holdout.
@@ -92,8 +84,9 @@ TEST(RowMatcherTest, DuplicatesAreMatchedToTheNextUnusedDevRowInRowOrder) {
 TEST(RowMatcherTest, HoldoutRowsAreFoundByContentAndByFeatures) {
   const Source src({kA, kB, kC}, {2});
   Row relabelled = kC;
-  relabelled.target = "|1|";  // the holdout row's features under another label
-  const MatchResult r = src.Match({kA, kC, kB, relabelled}, true, true);
+  relabelled[kTarget] = "1";                // the holdout row's features under another label
+  const Row renamed{"copy", kC[1], kC[2]};  // the holdout row under a new id
+  const MatchResult r = src.Match({kA, renamed, kB, relabelled}, true, true);
   EXPECT_EQ(r.holdout_rows, 2u);
   EXPECT_EQ(r.other_rows, 0u);
   EXPECT_EQ(r.first_lines, (std::vector<uint64_t>{3, 5}));
@@ -111,7 +104,7 @@ TEST(RowMatcherTest, AnExactDuplicateOfADevRowIsThatDevRow) {
 TEST(RowMatcherTest, WithoutContentRowsAreMatchedByFeaturesOnly) {
   const Source src({kA, kB, kC}, {2});
   Row unlabelled = kC;
-  unlabelled.target = "";
+  unlabelled[kTarget] = "";  // the file has no target column
   const MatchResult r = src.Match({kA, unlabelled}, false, false);
   EXPECT_TRUE(r.dev_rows.empty());
   EXPECT_FALSE(r.every_row_dev);
@@ -121,11 +114,14 @@ TEST(RowMatcherTest, WithoutContentRowsAreMatchedByFeaturesOnly) {
 }
 
 TEST(RowMatcherTest, ManyBatchesGiveTheResultOfOneOrderedPass) {
-  // 3 batches and a part; rows of equal and unequal lengths (hashed in pairs or alone).
+  // 3 batches and a part; rows of equal and unequal lengths (hashed in pairs or alone), text
+  // and numbers.
+  std::vector<std::string> cells;
+  const size_t n = 3 * MatchBatch::kRows + 77;
+  for (size_t i = 0; i < n; ++i)
+    cells.push_back(i % 3 ? std::to_string(i) : "t" + std::to_string(i));
   std::vector<Row> rows;
-  for (int i = 0; i < 3 * static_cast<int>(RowMatcher::kBatchRows) + 77; ++i) {
-    rows.push_back(Row{"r" + std::to_string(i), "|" + std::to_string(i % 2) + "|", "x"});
-  }
+  for (size_t i = 0; i < n; ++i) rows.push_back(Row{"x", cells[i], i % 2 ? "1" : "0"});
   std::vector<uint32_t> holdout;
   for (uint32_t i = 5; i < rows.size(); i += 1000) holdout.push_back(i);
   const Source src(rows, holdout);
