@@ -44,18 +44,9 @@ std::vector<size_t> RowsWhere(const std::vector<int>& fold, int f, bool equal) {
 
 Eigen::VectorXd Pick(const Eigen::VectorXd& y, const std::vector<size_t>& rows) {
   Eigen::VectorXd out(static_cast<Eigen::Index>(rows.size()));
-  for (size_t i = 0; i < rows.size(); ++i) out(static_cast<Eigen::Index>(i)) = y(static_cast<Eigen::Index>(rows[i]));
+  for (size_t i = 0; i < rows.size(); ++i)
+    out(static_cast<Eigen::Index>(i)) = y(static_cast<Eigen::Index>(rows[i]));
   return out;
-}
-
-// Fits `c` on the rows of fold != f and scores it on fold == f.
-Result<double> ScoreOnFold(const Candidate& c, const LoadedData& d, const std::vector<int>& fold, int f,
-                           Metric metric, const Task& t) {
-  std::vector<size_t> train = RowsWhere(fold, f, false), test = RowsWhere(fold, f, true);
-  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline p, FitPipeline(c, d.features.Select(train), Pick(d.target, train),
-                                                        t.task, t.classes));
-  UNSEEN_ASSIGN_OR_RETURN(Predictions pred, p.Predict(d.features.Select(test)));
-  return Score(metric, Pick(d.target, test), pred, t.classes);
 }
 
 Status NameIsFree(const Ledger& ledger, const std::string& name) {
@@ -70,14 +61,16 @@ Status NameIsFree(const Ledger& ledger, const std::string& name) {
 }
 
 // Scores every candidate; fills report->candidates and chosen.
-Status Select(const std::vector<Candidate>& cands, const LoadedData& d, const std::vector<int>& fold,
-              int k, Metric metric, const Task& t, FitReport* report) {
+Status Select(const std::vector<Candidate>& cands, const LoadedData& d,
+              const std::vector<int>& fold, int k, Metric metric, const Task& t,
+              FitReport* report) {
   double best = 0;
   for (size_t ci = 0; ci < cands.size(); ++ci) {
     CandidateScore cs;
     cs.settings = cands[ci].settings;
     for (int f = (k == 2 && report->selection == "validation") ? 1 : 0; f < k; ++f) {
-      UNSEEN_ASSIGN_OR_RETURN(double s, ScoreOnFold(cands[ci], d, fold, f, metric, t));
+      UNSEEN_ASSIGN_OR_RETURN(
+          double s, internal::ScoreOnFold(cands[ci], d, fold, f, metric, t.task, t.classes));
       cs.fold_scores.push_back(s);
     }
     double sum = 0;
@@ -137,6 +130,15 @@ Status ExcludePartition(const NamedPartition& p, LoadedData* d, FitReport* repor
 
 namespace internal {
 
+Result<double> ScoreOnFold(const Candidate& c, const LoadedData& d, const std::vector<int>& fold,
+                           int f, Metric metric, LearnTask task, int classes) {
+  std::vector<size_t> train = RowsWhere(fold, f, false), test = RowsWhere(fold, f, true);
+  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline p, FitPipeline(c, d.features.Select(train),
+                                                        Pick(d.target, train), task, classes));
+  UNSEEN_ASSIGN_OR_RETURN(Predictions pred, p.Predict(d.features.Select(test)));
+  return Score(metric, Pick(d.target, test), pred, classes);
+}
+
 std::vector<RowSet> FoldRowSets(const LoadedData& d, const std::vector<int>& fold, int k) {
   std::vector<std::vector<uint32_t>> rows(static_cast<size_t>(k));
   for (size_t i = 0; i < fold.size(); ++i)
@@ -192,10 +194,12 @@ json FrozenModelHeader(const LedgerState& st, const std::string& name) {
 Status CheckModelName(const std::string& name) {
   bool ok = !name.empty() && name.size() <= 64 && std::isalnum(static_cast<unsigned char>(name[0]));
   for (char ch : name) {
-    ok = ok && (std::isalnum(static_cast<unsigned char>(ch)) || ch == '.' || ch == '_' || ch == '-');
+    ok =
+        ok && (std::isalnum(static_cast<unsigned char>(ch)) || ch == '.' || ch == '_' || ch == '-');
   }
   if (ok) return Status::OK();
-  return Status::InvalidArgument("--name: '" + name + "' is not a model name; expected 1-64 of "
+  return Status::InvalidArgument("--name: '" + name +
+                                 "' is not a model name; expected 1-64 of "
                                  "A-Z a-z 0-9 . _ -, starting with a letter or digit");
 }
 
@@ -204,7 +208,8 @@ Result<FitReport> FitModel(const FitRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
   UNSEEN_RETURN_IF_ERROR(ledger->Begin());
   UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
-  if (!st.seal) return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
+  if (!st.seal)
+    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
   UNSEEN_RETURN_IF_ERROR(NameIsFree(*ledger, req.name));
 
   // 1. The spec, checked against the source's feature columns.
@@ -222,8 +227,9 @@ Result<FitReport> FitModel(const FitRequest& req) {
   }
   Status metric_ok = CheckMetric(metric, t.task, t.classes);
   if (!metric_ok.ok()) {
-    return Status::InvalidArgument(spec.path + ":" + std::to_string(spec.select ? spec.select->line : 1) +
-                                   ": " + metric_ok.message());
+    return Status::InvalidArgument(spec.path + ":" +
+                                   std::to_string(spec.select ? spec.select->line : 1) + ": " +
+                                   metric_ok.message());
   }
 
   // 2. The data, matched against the sealed holdout before any use, less
@@ -251,11 +257,13 @@ Result<FitReport> FitModel(const FitRequest& req) {
   if (spec.select || cands.size() > 1) {
     std::vector<int> labels;
     if (t.task == LearnTask::kClassification) {
-      for (Eigen::Index i = 0; i < d.target.size(); ++i) labels.push_back(static_cast<int>(d.target(i)));
+      for (Eigen::Index i = 0; i < d.target.size(); ++i)
+        labels.push_back(static_cast<int>(d.target(i)));
     }
     if (spec.select && spec.select->validation) {
       report.selection = "validation";
-      UNSEEN_ASSIGN_OR_RETURN(fold, AssignValidation(report.rows, *spec.select->validation, seed, d.groups));
+      UNSEEN_ASSIGN_OR_RETURN(
+          fold, AssignValidation(report.rows, *spec.select->validation, seed, d.groups));
       k = 2;
     } else {
       report.selection = "k-fold";
@@ -268,15 +276,18 @@ Result<FitReport> FitModel(const FitRequest& req) {
       size_t nval = RowsWhere(fold, 1, true).size();
       report.validation_bound = ValidationBound(report, metric, nval);
     } else {
-      report.caution = "the cross-validated score of the chosen candidate is optimistic: it was "
-                       "the best of " + std::to_string(cands.size()) +
-                       " compared on the same folds; only the holdout gives an unbiased estimate";
+      report.caution =
+          "the cross-validated score of the chosen candidate is optimistic: it was "
+          "the best of " +
+          std::to_string(cands.size()) +
+          " compared on the same folds; only the holdout gives an unbiased estimate";
     }
   }
 
   // 4. The chosen candidate, refitted on every row read, frozen.
   const Candidate& chosen = cands[report.chosen];
-  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline final_fit, FitPipeline(chosen, d.features, d.target, t.task, t.classes));
+  UNSEEN_ASSIGN_OR_RETURN(FittedPipeline final_fit,
+                          FitPipeline(chosen, d.features, d.target, t.task, t.classes));
   json model = internal::FrozenModelHeader(st, req.name);
   model["settings"] = chosen.settings;
   model["pipeline"] = final_fit.ToJson();
@@ -326,8 +337,8 @@ Result<FitReport> FitModel(const FitRequest& req) {
               {"holdout_rows_read", 0},
               {"tainted", false},
               {"summary", "froze " + req.name + " (" + chosen.learner.kind + ", " +
-                          std::to_string(report.rows) + " rows, chosen from " +
-                          std::to_string(cands.size()) + ")"}};
+                              std::to_string(report.rows) + " rows, chosen from " +
+                              std::to_string(cands.size()) + ")"}};
   std::vector<BlobRef> fit_blobs = {model_ref, spec_ref, rows_ref};
   if (excluded) {
     fit["excluded"] = {{"partition", excluded->name},

@@ -7,6 +7,8 @@
 #include <string>
 #include <vector>
 
+#include "harness/evaluate/metrics.h"
+#include "harness/pipeline/learner.h"
 #include "harness/pipeline/spec.h"
 #include "harness/workflow/dataset.h"
 #include "harness/workflow/fit.h"
@@ -31,6 +33,13 @@ Status RefuseFit(const FitRequest& request, Ledger* ledger, const Status& reason
 // The fields every frozen model starts with: format, name, ledger_id,
 // source_sha256 and target {column, classes}.
 nlohmann::json FrozenModelHeader(const LedgerState& state, const std::string& name);
+
+// Fits `candidate` (every transform, then the learner) on the rows of `data` with fold[i] != f
+// only, and scores it on the rows with fold[i] == f: no statistic of the scored rows reaches
+// the fit.
+Result<double> ScoreOnFold(const Candidate& candidate, const LoadedData& data,
+                           const std::vector<int>& fold, int f, Metric metric, LearnTask task,
+                           int classes);
 
 // The source rows of each fold's validation part (fold[i] == f), as row sets.
 std::vector<RowSet> FoldRowSets(const LoadedData& data, const std::vector<int>& fold, int k);
