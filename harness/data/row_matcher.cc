@@ -30,18 +30,15 @@ size_t MatchBatch::AddRow(const std::vector<std::string_view>& cells, uint64_t l
   return at;
 }
 
-RowMatcher::RowMatcher(const DigestIndex& content, const DigestIndex& holdout_features,
-                       const RowSet& holdout, uint64_t source_rows, size_t columns, size_t target,
-                       std::optional<size_t> id, bool by_content, bool dev_required)
-    : content_(content),
-      holdout_features_(holdout_features),
-      holdout_(holdout),
+RowMatcher::RowMatcher(MatchTables tables, size_t columns, size_t target, std::optional<size_t> id,
+                       bool by_content, bool dev_required)
+    : tables_(std::move(tables)),
       columns_(columns),
       target_(target),
       id_(id),
       by_content_(by_content),
       dev_required_(dev_required),
-      used_(by_content ? source_rows : 0, false),
+      used_(by_content ? tables_.content_digests.size() / sizeof(RowDigest) : 0, false),
       worker_([this] { Work(); }) {}
 
 RowMatcher::~RowMatcher() {
@@ -83,6 +80,8 @@ MatchResult RowMatcher::Finish() {
 }
 
 void RowMatcher::Work() {
+  content_.emplace(tables_.content_digests);
+  holdout_features_.emplace(tables_.holdout_feature_digests);
   for (;;) {
     std::unique_ptr<MatchBatch> b;
     {
@@ -170,9 +169,9 @@ void RowMatcher::Match(const MatchBatch& b) {
     bool is_holdout = false, is_dev = false;
     uint32_t dev_row = 0;
     if (by_content_) {
-      if (i + kAhead < n) content_.Prefetch(content[i + kAhead]);
-      content_.ForEachMatch(content[i], [&](uint32_t row) {
-        if (holdout_.Contains(row)) {
+      if (i + kAhead < n) content_->Prefetch(content[i + kAhead]);
+      content_->ForEachMatch(content[i], [&](uint32_t row) {
+        if (tables_.holdout.Contains(row)) {
           is_holdout = true;
         } else if (!used_[row] && (!is_dev || row < dev_row)) {
           is_dev = true;
@@ -186,7 +185,7 @@ void RowMatcher::Match(const MatchBatch& b) {
       Sha256 features;
       features.Update(bytes_.data() + begin_of(i), target_begin_[i] - begin_of(i));
       features.Update(bytes_.data() + target_end_[i], ends_[i] - target_end_[i]);
-      if (holdout_features_.Contains(TruncateToRowDigest(features.Finish()))) is_holdout = true;
+      if (holdout_features_->Contains(TruncateToRowDigest(features.Finish()))) is_holdout = true;
     }
     if (is_dev) {
       used_[dev_row] = true;

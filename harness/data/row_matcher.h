@@ -68,16 +68,22 @@ struct MatchResult {
   std::vector<uint64_t> first_lines;  // lines of the first few rows counted above
 };
 
+// What rows are matched against, as the ledger stores it.
+struct MatchTables {
+  std::string content_digests;          // of every source row, 16 bytes each, in row order
+  std::string holdout_feature_digests;  // of every holdout row, in row order
+  RowSet holdout;                       // the holdout's row numbers
+};
+
 class RowMatcher {
  public:
-  // `content` indexes the content digests of all `source_rows` rows; `holdout_features` the
-  // feature digests of the holdout rows; `holdout` is the holdout's row set. `columns` is the
+  // Indexes `tables` on the matcher's thread, while the caller starts reading. `columns` is the
   // source's column count, `target` its target column and `id` its id column, if any. With
   // `by_content` false (the file lacks a column), rows are matched by features only and none
   // is a development row. With `dev_required`, a row matched to no development row is
   // counted in other_rows.
-  RowMatcher(const DigestIndex& content, const DigestIndex& holdout_features, const RowSet& holdout,
-             uint64_t source_rows, size_t columns, size_t target, std::optional<size_t> id,
+  // REQUIRES: tables.content_digests holds 16 bytes for each source row.
+  RowMatcher(MatchTables tables, size_t columns, size_t target, std::optional<size_t> id,
              bool by_content, bool dev_required);
   ~RowMatcher();  // Finish()es if needed
   RowMatcher(const RowMatcher&) = delete;
@@ -96,9 +102,8 @@ class RowMatcher {
   // Encodes the rows of `b` into bytes_, ends_, target_begin_ and target_end_.
   void Encode(const MatchBatch& b);
 
-  const DigestIndex& content_;
-  const DigestIndex& holdout_features_;
-  const RowSet& holdout_;
+  const MatchTables tables_;
+  std::optional<DigestIndex> content_, holdout_features_;  // built by the thread, first
   const size_t columns_, target_;
   const std::optional<size_t> id_;
   const bool by_content_, dev_required_;

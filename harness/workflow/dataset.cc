@@ -7,7 +7,6 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/data/csv.h"
-#include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/row_matcher.h"
 #include "harness/data/source_scan.h"
@@ -75,8 +74,8 @@ class ClassIndexer {
 // does not fit its column.
 Status AppendValues(const CellKind* kinds, const double* numbers,
                     const std::vector<std::string_view>& canon,
-                    const std::vector<size_t>& feature_cols, ClassIndexer* classes, TaskKind task, std::optional<size_t> target_col, Frame* frame,
-                    std::vector<double>* target) {
+                    const std::vector<size_t>& feature_cols, ClassIndexer* classes, TaskKind task,
+                    std::optional<size_t> target_col, Frame* frame, std::vector<double>* target) {
   for (size_t k = 0; k < feature_cols.size(); ++k) {
     const size_t c = feature_cols[k];
     FrameColumn& col = frame->columns[k];
@@ -119,7 +118,8 @@ std::vector<std::string> ClassLabels(const SourceInfo& source) {
 
 Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const std::string& path,
                             DataPurpose purpose, DataRefusal* refusal) {
-  if (!st.seal) return Status::FailedPrecondition(ledger.path() + ": seal the holdout first (`unseen seal`)");
+  if (!st.seal)
+    return Status::FailedPrecondition(ledger.path() + ": seal the holdout first (`unseen seal`)");
   const SourceInfo& src = st.source;
   CsvOptions options;
   options.delimiter = src.delimiter;
@@ -133,7 +133,8 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
     if (layout.file_of_source[s] < 0 && (!id_col || s != *id_col)) full_row = false;
   }
   if (purpose == DataPurpose::kDevRows && !full_row) {
-    return Status::InvalidArgument(path + ": expected every column of the source (development rows)");
+    return Status::InvalidArgument(path +
+                                   ": expected every column of the source (development rows)");
   }
 
   // The file's SHA-256 runs on another thread, over the same mapping the rows are read from, so
@@ -142,16 +143,15 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   std::future<Result<FileDigest>> file_digest =
       std::async(std::launch::async, [&file] { return file.Sha256(); });
   // Digests to match against: content digests of all rows, feature digests of the holdout.
-  UNSEEN_ASSIGN_OR_RETURN(const std::string content_blob, ledger.GetBlob(st.content_digests));
-  if (content_blob.size() != src.rows * sizeof(RowDigest)) {
+  MatchTables tables;
+  UNSEEN_ASSIGN_OR_RETURN(tables.content_digests, ledger.GetBlob(st.content_digests));
+  if (tables.content_digests.size() != src.rows * sizeof(RowDigest)) {
     return Status::Corruption("the content digest list does not match the source's row count");
   }
-  const DigestIndex content(content_blob);
-  UNSEEN_ASSIGN_OR_RETURN(const std::string feature_blob,
+  UNSEEN_ASSIGN_OR_RETURN(tables.holdout_feature_digests,
                           ledger.GetBlob(st.seal->holdout_feature_digests));
-  const DigestIndex holdout_features(feature_blob);
   UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
-  UNSEEN_ASSIGN_OR_RETURN(RowSet holdout, RowSet::Deserialize(set_bytes));
+  UNSEEN_ASSIGN_OR_RETURN(tables.holdout, RowSet::Deserialize(set_bytes));
 
   LoadedData out;
   out.path = path;
@@ -173,27 +173,34 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   // This thread reads the rows and their values; the matcher hashes and looks them up on
   // another. A holdout row is refused even when the file has other errors, so after the first
   // bad value the rows are still read and matched, and their values no longer kept.
-  RowMatcher matcher(content, holdout_features, holdout, src.rows, src.columns.size(), target_col,
-                     id_col, full_row && labelled, purpose == DataPurpose::kDevRows);
+  RowMatcher matcher(std::move(tables), src.columns.size(), target_col, id_col,
+                     full_row && labelled, purpose == DataPurpose::kDevRows);
   std::unique_ptr<MatchBatch> batch = matcher.NewBatch();
   Status bad_value;
+  // A file with the source's columns in the source's order (a dev file) is read as it is.
+  bool same_order = csv->header().size() == src.columns.size();
+  for (size_t c = 0; c < src.columns.size(); ++c) {
+    same_order = same_order && layout.file_of_source[c] == static_cast<int>(c);
+  }
   Status s = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
-    const auto& f = *r.fields;
-    for (size_t c = 0; c < src.columns.size(); ++c) {
-      int fc = layout.file_of_source[c];
-      canon[c] = fc >= 0 ? f[static_cast<size_t>(fc)] : std::string_view();
+    if (!same_order) {
+      for (size_t c = 0; c < src.columns.size(); ++c) {
+        int fc = layout.file_of_source[c];
+        canon[c] = fc >= 0 ? (*r.fields)[static_cast<size_t>(fc)] : std::string_view();
+      }
     }
+    const std::vector<std::string_view>& row = same_order ? *r.fields : canon;
     // Each cell is parsed once, into the batch: the values are read back from there.
-    const size_t at = batch->AddRow(canon, r.line);
+    const size_t at = batch->AddRow(row, r.line);
     if (bad_value.ok()) {
-      bad_value = AppendValues(batch->kinds.data() + at, batch->numbers.data() + at, canon,
+      bad_value = AppendValues(batch->kinds.data() + at, batch->numbers.data() + at, row,
                                feature_cols, &classes, src.task,
-                             labelled ? std::optional<size_t>(target_col) : std::nullopt,
+                               labelled ? std::optional<size_t>(target_col) : std::nullopt,
                                &out.features, &target);
       if (bad_value.ok()) {
         out.lines.push_back(r.line);
-        out.ids.push_back(has_id ? std::string(canon[*id_col]) : std::to_string(r.index));
-        if (has_group) out.groups.emplace_back(canon[*group_col]);
+        out.ids.push_back(has_id ? std::string(row[*id_col]) : std::to_string(r.index));
+        if (has_group) out.groups.emplace_back(row[*group_col]);
       } else {
         bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
       }
@@ -213,7 +220,8 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   std::vector<uint32_t> dev_rows = std::move(matched.dev_rows);
   if (refusal->holdout_rows > 0 || refusal->not_dev_rows > 0) {
     std::string lines;
-    for (uint64_t l : refusal->first_lines) lines += (lines.empty() ? "" : ", ") + std::to_string(l);
+    for (uint64_t l : refusal->first_lines)
+      lines += (lines.empty() ? "" : ", ") + std::to_string(l);
     if (refusal->holdout_rows > 0) {
       return Status::Refused(path + ": " + std::to_string(refusal->holdout_rows) +
                              " rows match sealed holdout rows (first lines: " + lines +
@@ -258,7 +266,8 @@ LoadedData SelectRows(const LoadedData& d, const std::vector<size_t>& rows) {
 }
 
 Status RecordRefusal(const std::string& ledger_path, const std::string& actor,
-                     const std::string& command, const Status& reason, const std::string& details_json) {
+                     const std::string& command, const Status& reason,
+                     const std::string& details_json) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(ledger_path, LedgerMode::kReadWrite));
   UNSEEN_RETURN_IF_ERROR(ledger->Begin());
   nlohmann::json fields = {{"command", command},

@@ -30,19 +30,15 @@ std::string Digests(const std::vector<Row>& rows, std::vector<size_t> skip) {
 class Source {
  public:
   Source(std::vector<Row> rows, std::vector<uint32_t> holdout_rows)
-      : rows_(std::move(rows)), holdout_(RowSet::FromSorted(holdout_rows)) {
-    std::vector<Row> held;
-    for (uint32_t h : holdout_rows) held.push_back(rows_[h]);
-    content_blob_ = Digests(rows_, {kId});
-    feature_blob_ = Digests(held, {kId, kTarget});
-    content_ = std::make_unique<DigestIndex>(content_blob_);
-    features_ = std::make_unique<DigestIndex>(feature_blob_);
-  }
+      : rows_(std::move(rows)), holdout_rows_(std::move(holdout_rows)) {}
 
   // Matches `file` (lines from 2) in full batches and a last part.
   MatchResult Match(const std::vector<Row>& file, bool by_content, bool dev_required) const {
-    RowMatcher m(*content_, *features_, holdout_, rows_.size(), kColumns, kTarget, kId, by_content,
-                 dev_required);
+    std::vector<Row> held;
+    for (uint32_t h : holdout_rows_) held.push_back(rows_[h]);
+    MatchTables tables{Digests(rows_, {kId}), Digests(held, {kId, kTarget}),
+                       RowSet::FromSorted(holdout_rows_)};
+    RowMatcher m(std::move(tables), kColumns, kTarget, kId, by_content, dev_required);
     std::unique_ptr<MatchBatch> b = m.NewBatch();
     for (size_t i = 0; i < file.size(); ++i) {
       b->AddRow(file[i], i + 2);
@@ -57,9 +53,7 @@ class Source {
 
  private:
   std::vector<Row> rows_;
-  RowSet holdout_;
-  std::string content_blob_, feature_blob_;
-  std::unique_ptr<DigestIndex> content_, features_;
+  std::vector<uint32_t> holdout_rows_;
 };
 
 // Ids differ from the source's in the file: content digests leave the id out.
