@@ -49,14 +49,14 @@ std::unique_ptr<MatchBatch> RowMatcher::NewBatch() {
   std::unique_lock<std::mutex> lock(mu_);
   cv_.wait(lock, [this] { return outstanding_ < kMaxOutstanding; });
   ++outstanding_;
+  std::unique_ptr<MatchBatch> b;
   if (free_.empty()) {
-    auto b = std::make_unique<MatchBatch>();
-    b->columns = columns_;
-    return b;
+    b = std::make_unique<MatchBatch>();
+  } else {
+    b = std::move(free_.back());
+    free_.pop_back();
+    b->Clear();
   }
-  std::unique_ptr<MatchBatch> b = std::move(free_.back());
-  free_.pop_back();
-  b->Clear();
   b->columns = columns_;
   return b;
 }
@@ -190,8 +190,6 @@ void RowMatcher::Match(const MatchBatch& b) {
     if (is_dev) {
       used_[dev_row] = true;
       result_.dev_rows.push_back(dev_row);
-    } else {
-      result_.every_row_dev = false;
     }
     if (is_holdout || (dev_required_ && !is_dev)) {
       (is_holdout ? result_.holdout_rows : result_.other_rows)++;

@@ -11,7 +11,7 @@
 //     for every row not matched to a development row.
 // Batches are processed one after another in the order added, so the result is what one
 // thread reading the file in order would decide. Add() and Finish() must be called from one
-// thread; the indexes and the row set must outlive the matcher and not change.
+// thread.
 #ifndef UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
 #define UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
 
@@ -62,7 +62,6 @@ struct MatchBatch {
 
 struct MatchResult {
   std::vector<uint32_t> dev_rows;     // the source row of each row matched to a development row
-  bool every_row_dev = true;          // whether every row was matched to a development row
   uint64_t holdout_rows = 0;          // rows that match a holdout row
   uint64_t other_rows = 0;            // rows that match neither (when every row must be dev)
   std::vector<uint64_t> first_lines;  // lines of the first few rows counted above

@@ -64,13 +64,11 @@ TEST(RowMatcherTest, DuplicatesAreMatchedToTheNextUnusedDevRowInRowOrder) {
   const Source src({kA, kB, kA, kC}, {3});
   MatchResult r = src.Match({kA, kA, kB}, true, true);
   EXPECT_EQ(r.dev_rows, (std::vector<uint32_t>{0, 2, 1}));
-  EXPECT_TRUE(r.every_row_dev);
   EXPECT_EQ(r.holdout_rows, 0u);
   EXPECT_EQ(r.other_rows, 0u);
   // A third copy has no dev row left: it is not a development row.
   r = src.Match({kA, kA, kA}, true, true);
   EXPECT_EQ(r.dev_rows, (std::vector<uint32_t>{0, 2}));
-  EXPECT_FALSE(r.every_row_dev);
   EXPECT_EQ(r.other_rows, 1u);
   EXPECT_EQ(r.first_lines, (std::vector<uint64_t>{4}));
 }
@@ -101,7 +99,6 @@ TEST(RowMatcherTest, WithoutContentRowsAreMatchedByFeaturesOnly) {
   unlabelled[kTarget] = "";  // the file has no target column
   const MatchResult r = src.Match({kA, unlabelled}, false, false);
   EXPECT_TRUE(r.dev_rows.empty());
-  EXPECT_FALSE(r.every_row_dev);
   EXPECT_EQ(r.holdout_rows, 1u);
   EXPECT_EQ(r.other_rows, 0u);
   EXPECT_EQ(r.first_lines, (std::vector<uint64_t>{3}));
