@@ -435,6 +435,39 @@ void RecordParser::Unescape() {
   }
 }
 
+// The end of the record that starts at p in a well-formed file: its first LF outside quotes, or
+// `end`. Adds the LFs inside quotes to *inner_lines. *next_quote caches a search for '"' made at
+// some earlier p: no quote lies in [that p, *next_quote), and *next_quote is a quote or the end
+// of the window searched. Records without quotes cost one memchr; the window keeps the search
+// from touching (and so mapping) pages far ahead of the cursor.
+const char* RecordEnd(const char* p, const char* end, const char** next_quote,
+                      uint64_t* inner_lines) {
+  static constexpr size_t kQuoteWindow = size_t{1} << 20;
+  auto find_quote = [end](const char* from) {
+    const size_t n = std::min(static_cast<size_t>(end - from), kQuoteWindow);
+    const void* at = std::memchr(from, '"', n);
+    return at ? static_cast<const char*>(at) : from + n;
+  };
+  if (*next_quote < p) *next_quote = find_quote(p);
+  const void* found = std::memchr(p, '\n', static_cast<size_t>(end - p));
+  const char* lf = found ? static_cast<const char*>(found) : end;
+  if (*next_quote > lf || (*next_quote == lf && lf == end)) return lf;
+  // A quote (or the end of the window) before the line end: follow the quotes byte by byte.
+  // No LF lies before *next_quote. Doubled quotes toggle twice, so toggling is enough.
+  bool inside = false;
+  const char* c = *next_quote;
+  for (; c < end; ++c) {
+    if (*c == '"') {
+      inside = !inside;
+    } else if (*c == '\n') {
+      if (!inside) break;
+      ++*inner_lines;
+    }
+  }
+  *next_quote = c < end ? find_quote(c) : end;
+  return c;
+}
+
 Status OpenError(const std::string& path, int err) {
   std::string msg = path + ": " + std::strerror(err);
   if (err == ENOENT) return Status::NotFound(msg + "; expected an existing CSV file");
@@ -587,6 +620,77 @@ Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn)
       if (parser.pos() - released >= kReleaseBytes + kReleaseLag) {
         Release(parser.pos() - kReleaseLag, &released);
       }
+    }
+    Release(size_, &released);
+    return status;
+  } catch (const std::exception& e) {
+    Release(size_, &released);
+    return Status::Internal(path_ + ": while reading records: " + e.what());
+  } catch (...) {
+    Release(size_, &released);
+    return Status::Internal(path_ + ": while reading records: an unknown exception");
+  }
+}
+
+Status CsvFile::ForEachRecordParsing(const std::vector<uint32_t>& parse,
+                                     const std::function<Status(const CsvRecord&)>& fn) const {
+  uint64_t released = 0;
+  try {
+    const size_t columns = header_.size();
+    RecordParser parser(path_, data_, size_, options_.delimiter, columns);
+    const char* const end = data_ + size_;
+    const char* p = data_ + body_begin_;
+    const char* next_quote = p;
+    uint64_t line = body_line_;
+    uint64_t line_start = body_line_ == 1 ? bom_ : body_begin_;
+    size_t next_parse = 0;
+    CsvRecord record{};
+    Status status;
+    uint64_t index = 0;
+    for (; p < end; ++index) {
+      record.index = index;
+      record.line = line;
+      record.offset = static_cast<uint64_t>(p - data_);
+      if (next_parse < parse.size() && parse[next_parse] == index) {
+        ++next_parse;
+        parser.Seek(record.offset, line, line_start);
+        status = parser.Next();
+        if (!status.ok()) break;
+        if (parser.field_count() != columns) {
+          const uint64_t at =
+              parser.field_count() > columns ? parser.extra_field_offset() : parser.content_end();
+          status = Status::InvalidArgument(Location(at) + ": ragged row: expected " +
+                                           std::to_string(columns) + " fields, found " +
+                                           std::to_string(parser.field_count()));
+          break;
+        }
+        record.raw = parser.raw();
+        record.raw_line = std::string_view(p, parser.pos() - record.offset);
+        record.fields = &parser.fields();
+        line = parser.line();
+        p = data_ + parser.pos();
+        if (p[-1] == '\n') line_start = parser.pos();
+      } else {
+        uint64_t inner = 0;
+        const char* lf = RecordEnd(p, end, &next_quote, &inner);
+        const char* content_end = lf < end && lf > p && lf[-1] == '\r' ? lf - 1 : lf;
+        const char* next = lf < end ? lf + 1 : end;
+        record.raw = std::string_view(p, static_cast<size_t>(content_end - p));
+        record.raw_line = std::string_view(p, static_cast<size_t>(next - p));
+        record.fields = nullptr;
+        line += inner + (lf < end);
+        if (lf < end) line_start = static_cast<uint64_t>(next - data_);
+        p = next;
+      }
+      status = fn(record);
+      if (!status.ok()) break;
+      const uint64_t pos = static_cast<uint64_t>(p - data_);
+      if (pos - released >= kReleaseBytes + kReleaseLag) Release(pos - kReleaseLag, &released);
+    }
+    if (status.ok() && next_parse < parse.size()) {
+      status = Status::InvalidArgument(path_ + ": has " + std::to_string(index) +
+                                       " records; expected a record with index " +
+                                       std::to_string(parse[next_parse]));
     }
     Release(size_, &released);
     return status;

@@ -102,6 +102,17 @@ class CsvFile {
   // thread that stays less than 16 MiB behind keeps resident memory bounded.
   Status ForEachRecord(const std::function<Status(const CsvRecord&)>& fn) const;
 
+  // Like ForEachRecord(), for a file already known to be well formed: one that ForEachRecord()
+  // has read whole before and whose bytes have been checked since (by SHA-256, say). Only the
+  // records whose indices are in `parse` (strictly ascending) are parsed and checked as
+  // ForEachRecord() checks them, and come with their fields; every other record is found by its
+  // line end alone, following quotes and nothing else, and comes with fields == nullptr (index,
+  // line, offset, raw and raw_line are set as ForEachRecord() sets them). Several times faster
+  // than ForEachRecord() when few records are parsed. In a file that is not well formed, the
+  // records not parsed may be cut in the wrong places; the caller must check the bytes.
+  Status ForEachRecordParsing(const std::vector<uint32_t>& parse,
+                              const std::function<Status(const CsvRecord&)>& fn) const;
+
   // Calls `fn` with the whole file (byte order mark included) as consecutive chunks of at most
   // `chunk_bytes` bytes (0 means 1 MiB), in order, with bounded resident memory; for hashing
   // or copying a file of any size. The view is valid only during the call. Returns OK, or the

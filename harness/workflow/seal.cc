@@ -256,12 +256,11 @@ Status WriteRows(const CsvFile& csv, const SourceInfo& src, const SplitResult& s
   RowDigester features(skip);
   DevRows dev_rows(dev);
   out->feature_digests.reserve(split.holdout.size() * sizeof(RowDigest));
-  size_t next_holdout = 0;
   uint64_t next_progress = 0;
-  Status s = csv.ForEachRecord([&](const CsvRecord& r) -> Status {
-    bool in_holdout = next_holdout < split.holdout.size() && split.holdout[next_holdout] == r.index;
-    if (!in_holdout) return dev_rows.Add(r);
-    ++next_holdout;
+  // Only the holdout rows are parsed: the file is the one init read whole, and its digest is
+  // checked beside this pass. Dev rows are cut at their line ends and copied as they are.
+  Status s = csv.ForEachRecordParsing(split.holdout, [&](const CsvRecord& r) -> Status {
+    if (r.fields == nullptr) return dev_rows.Add(r);
     if (record_lines) out->holdout_lines.push_back(r.line);
     RowDigest d = features.Digest(*r.fields);
     out->feature_digests.append(reinterpret_cast<const char*>(d.data()), d.size());
@@ -391,22 +390,28 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   const bool find_later = !req.drop_cross_duplicates;
   if (find_later) out.holdout_lines.reserve(split.holdout.size());
   std::string aad = SealedAad(state.ledger_id, holdout_ref.digest);
-  UNSEEN_RETURN_IF_ERROR(
-      WriteRows(**csv, src, split, find_later, req.key, aad, &dev, &out, req.progress));
+  // Without dropping, the duplicates are looked for beside pass 2, which does not touch the
+  // ledger (the ledger part below waits for them before it does).
+  std::future<Result<std::vector<uint32_t>>> later_duplicates;
+  if (find_later) later_duplicates = std::async(std::launch::async, cross_duplicates);
+  Status written = WriteRows(**csv, src, split, find_later, req.key, aad, &dev, &out, req.progress);
+  // A file changed since init fails here, whatever the pass made of its bytes.
   UNSEEN_RETURN_IF_ERROR(check_file());
+  UNSEEN_RETURN_IF_ERROR(written);
   // The dev file reaches the disk (fsync) on another thread while this one finishes the
   // ledger's part; the commit waits for both.
   std::future<Status> closing =
       std::async(std::launch::async, [&dev, &report] { return dev.Close(&report.dev_out_sha256); });
   auto ledger_part = [&]() -> Result<std::array<BlobRef, 3>> {
-    // The largest blobs go in first and are freed, before the digest list is read.
+    if (find_later) {
+      UNSEEN_ASSIGN_OR_RETURN(flagged, later_duplicates.get());
+    }
     UNSEEN_ASSIGN_OR_RETURN(BlobRef sealed_ref, ledger->PutBlob("sealed-rows", out.sealed));
     UNSEEN_ASSIGN_OR_RETURN(BlobRef feat_ref,
                             ledger->PutBlob("feature-digests", out.feature_digests));
     out.sealed = std::string();
     out.feature_digests = std::string();
     if (find_later) {
-      UNSEEN_ASSIGN_OR_RETURN(flagged, cross_duplicates());
       // The first few holdout rows with a duplicate in dev, by their line in the file.
       for (uint32_t row : flagged) {
         if (out.duplicate_lines.size() == kShownDuplicateLines) break;

@@ -301,6 +301,25 @@ TEST_F(WorkflowTest, SealRefusesAChangedDataFile) {
   EXPECT_FALSE(Exists("dev.csv"));
 }
 
+// Seal cuts the dev rows at their line ends without parsing them, trusting the digest check: a
+// file changed into one that is cut differently (an unclosed quote swallows every later row)
+// must still be refused as a changed file, not read.
+TEST_F(WorkflowTest, SealRefusesAChangedFileThatIsCutDifferently) {
+  const std::string original = testing::SampleCsv(100);
+  WriteFile(dir_.File("d.csv"), original);
+  Keygen("k");
+  ASSERT_EQ(Init("d.csv", "l").exit_code, 0);
+  std::string before = ReadFile(dir_.File("l"));
+  std::string changed = original;
+  changed.insert(changed.find('\n', changed.find('\n') + 1) + 1, "\"");
+  WriteFile(dir_.File("d.csv"), changed);
+  RunResult r = Seal("l", "k", "--dev-out " + Q("dev.csv"));
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.err.find("expected the same file"), std::string::npos) << r.err;
+  EXPECT_EQ(ReadFile(dir_.File("l")), before);
+  EXPECT_FALSE(Exists("dev.csv"));
+}
+
 // --- malformed input: exit 2, FILE:LINE:COL, no ledger ----------------------
 
 struct BadCsv {

@@ -659,5 +659,103 @@ TEST_F(CsvTest, FiftyMegabyteFileStreamsWithBoundedMemory) {
   EXPECT_LT(RssFileBytes(), rss_before + (uint64_t{8} << 20));  // all released at the end
 }
 
+// ForEachRecordParsing() must cut a well-formed file exactly where ForEachRecord() does, and give
+// the parsed records the same fields, whichever records are parsed.
+TEST_F(CsvTest, ParsingSomeRecordsCutsTheFileAsReadingAllDoes) {
+  const std::vector<std::string> files = {
+      "a,b\n1,2\n3,4\n5,6\n",
+      "a,b\r\n1,2\r\n3,4\r\n5,6",                                  // CRLF, no final line end
+      "\xEF\xBB\xBF" "a,b\n\"x\ny\",2\n\"q\"\"\"\"\",4\n\"\",\"\r\n\"\r\n",  // BOM, LF in quotes
+      "a\n\n1\n\n",                                                     // empty records
+      "a,b\n\"1\n\n2\",\"3\"\"\n\"\n4,5\r\n6,\"7\"\n",                     // several LFs in one field
+  };
+  for (const std::string& content : files) {
+    SCOPED_TRACE(content);
+    Parsed all = Parse(content);
+    ASSERT_OK(all.status);
+    auto csv = CsvFile::Open(last_path_, CsvOptions{});
+    ASSERT_OK(csv);
+    const size_t n = all.records.size();
+    ASSERT_LE(n, 8u);
+    for (uint32_t mask = 0; mask < (1u << n); ++mask) {
+      std::vector<uint32_t> parse;
+      for (uint32_t i = 0; i < n; ++i) {
+        if (mask & (1u << i)) parse.push_back(i);
+      }
+      size_t seen = 0;
+      ASSERT_OK((*csv)->ForEachRecordParsing(parse, [&](const CsvRecord& r) {
+        const CsvRecord& want = all.records.at(seen);
+        EXPECT_EQ(r.index, want.index);
+        EXPECT_EQ(r.line, want.line);
+        EXPECT_EQ(r.offset, want.offset);
+        EXPECT_EQ(std::string(r.raw), all.raws.at(seen));
+        EXPECT_EQ(r.raw_line.data(), r.raw.data());
+        EXPECT_EQ(r.raw_line.size(), want.raw_line.size()) << "record " << seen;
+        const bool parsed = (mask >> seen) & 1;
+        EXPECT_EQ(r.fields != nullptr, parsed);
+        if (parsed) {
+          EXPECT_EQ(std::vector<std::string>(r.fields->begin(), r.fields->end()),
+                    all.rows.at(seen));
+        }
+        ++seen;
+        return Status::OK();
+      }));
+      EXPECT_EQ(seen, n) << "mask " << mask;
+    }
+  }
+}
+
+// The search for quotes looks a window ahead at a time: quoted fields far apart, past several
+// windows of plain records, must still be followed.
+TEST_F(CsvTest, ParsingSomeRecordsFollowsQuotesFarApart) {
+  std::string content = "id,note\n";
+  for (int block = 0; block < 4; ++block) {
+    for (int i = 0; i < 40000; ++i) content += std::to_string(i) + ",plain text of a row\n";
+    content += "q" + std::to_string(block) + ",\"two\nlines, \"\"quoted\"\"\"\r\n";
+  }
+  Parsed all = Parse(content);
+  ASSERT_OK(all.status);
+  ASSERT_GT(content.size(), size_t{3} << 20);
+  auto csv = CsvFile::Open(last_path_, CsvOptions{});
+  ASSERT_OK(csv);
+  for (uint32_t step : {1u, 7u, 40001u, 1000000u}) {
+    std::vector<uint32_t> parse;
+    for (uint32_t i = 3; i < all.records.size(); i += step) parse.push_back(i);
+    size_t seen = 0, next = 0, mismatches = 0;
+    ASSERT_OK((*csv)->ForEachRecordParsing(parse, [&](const CsvRecord& r) {
+      const CsvRecord& want = all.records.at(seen);
+      mismatches += r.index != want.index || r.line != want.line || r.offset != want.offset ||
+                    r.raw != all.raws.at(seen) || r.raw_line.size() != want.raw_line.size();
+      const bool parsed = next < parse.size() && parse[next] == seen;
+      next += parsed;
+      mismatches += (r.fields != nullptr) != parsed;
+      if (parsed) {
+        mismatches +=
+            std::vector<std::string>(r.fields->begin(), r.fields->end()) != all.rows.at(seen);
+      }
+      ++seen;
+      return Status::OK();
+    }));
+    EXPECT_EQ(seen, all.records.size()) << "step " << step;
+    EXPECT_EQ(mismatches, 0u) << "step " << step;
+  }
+}
+
+TEST_F(CsvTest, ParsingSomeRecordsChecksThoseItParses) {
+  auto csv = Open("a,b\n1,2\n3\n4,5\n");
+  ASSERT_OK(csv);
+  // The ragged record is not looked at unless it is parsed.
+  ASSERT_OK((*csv)->ForEachRecordParsing({0, 2}, [](const CsvRecord&) { return Status::OK(); }));
+  EXPECT_ERROR_AT((*csv)->ForEachRecordParsing({1}, [](const CsvRecord&) { return Status::OK(); }),
+                  3, 2, "ragged row: expected 2 fields, found 1");
+  const Status past = (*csv)->ForEachRecordParsing({2, 7}, [](const CsvRecord&) {
+    return Status::OK();
+  });
+  EXPECT_TRUE(past.IsInvalidArgument()) << past.ToString();
+  EXPECT_NE(past.message().find("has 3 records; expected a record with index 7"),
+            std::string::npos)
+      << past.message();
+}
+
 }  // namespace
 }  // namespace unseen
