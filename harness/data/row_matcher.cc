@@ -38,7 +38,16 @@ RowMatcher::RowMatcher(MatchTables tables, size_t columns, size_t target, std::o
       id_(id),
       by_content_(by_content),
       dev_required_(dev_required),
-      used_(by_content ? tables_.content_digests.size() / sizeof(RowDigest) : 0, false),
+      worker_([this] { Work(); }) {}
+
+RowMatcher::RowMatcher(std::function<Result<MatchTables>()> load, size_t columns, size_t target,
+                       std::optional<size_t> id, bool by_content, bool dev_required)
+    : load_(std::move(load)),
+      columns_(columns),
+      target_(target),
+      id_(id),
+      by_content_(by_content),
+      dev_required_(dev_required),
       worker_([this] { Work(); }) {}
 
 RowMatcher::~RowMatcher() {
@@ -80,8 +89,19 @@ MatchResult RowMatcher::Finish() {
 }
 
 void RowMatcher::Work() {
-  content_.emplace(tables_.content_digests);
-  holdout_features_.emplace(tables_.holdout_feature_digests);
+  if (load_) {
+    Result<MatchTables> loaded = load_();
+    if (loaded.ok()) {
+      tables_ = std::move(*loaded);
+    } else {
+      result_.status = loaded.status();
+    }
+  }
+  if (result_.status.ok()) {
+    if (by_content_) used_.assign(tables_.content_digests.size() / sizeof(RowDigest), false);
+    content_.emplace(tables_.content_digests);
+    holdout_features_.emplace(tables_.holdout_feature_digests);
+  }
   for (;;) {
     std::unique_ptr<MatchBatch> b;
     {
@@ -91,7 +111,7 @@ void RowMatcher::Work() {
       b = std::move(queue_.front());
       queue_.pop_front();
     }
-    Match(*b);
+    if (result_.status.ok()) Match(*b);
     {
       std::lock_guard<std::mutex> lock(mu_);
       free_.push_back(std::move(b));

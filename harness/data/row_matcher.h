@@ -18,6 +18,7 @@
 #include <condition_variable>
 #include <cstdint>
 #include <deque>
+#include <functional>
 #include <memory>
 #include <mutex>
 #include <optional>
@@ -28,6 +29,7 @@
 #include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
 #include "storage/row_set.h"
+#include "storage/status.h"
 
 namespace unseen {
 
@@ -61,6 +63,7 @@ struct MatchBatch {
 };
 
 struct MatchResult {
+  Status status;                      // OK, or why the tables could not be loaded
   std::vector<uint32_t> dev_rows;     // the source row of each row matched to a development row
   uint64_t holdout_rows = 0;          // rows that match a holdout row
   uint64_t other_rows = 0;            // rows that match neither (when every row must be dev)
@@ -84,6 +87,11 @@ class RowMatcher {
   // REQUIRES: tables.content_digests holds 16 bytes for each source row.
   RowMatcher(MatchTables tables, size_t columns, size_t target, std::optional<size_t> id,
              bool by_content, bool dev_required);
+  // The same, with the tables loaded by `load` on the matcher's thread, so that reading them
+  // overlaps the caller's reading too. When `load` fails, batches are taken and not matched,
+  // and Finish() returns its status. `load` must not touch what the caller uses meanwhile.
+  RowMatcher(std::function<Result<MatchTables>()> load, size_t columns, size_t target,
+             std::optional<size_t> id, bool by_content, bool dev_required);
   ~RowMatcher();  // Finish()es if needed
   RowMatcher(const RowMatcher&) = delete;
   RowMatcher& operator=(const RowMatcher&) = delete;
@@ -101,7 +109,8 @@ class RowMatcher {
   // Encodes the rows of `b` into bytes_, ends_, target_begin_ and target_end_.
   void Encode(const MatchBatch& b);
 
-  const MatchTables tables_;
+  std::function<Result<MatchTables>()> load_;  // run first by the thread, when set
+  MatchTables tables_;  // set before the thread starts, or by it
   std::optional<DigestIndex> content_, holdout_features_;  // built by the thread, first
   const size_t columns_, target_;
   const std::optional<size_t> id_;

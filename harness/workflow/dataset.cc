@@ -143,15 +143,20 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   std::future<Result<FileDigest>> file_digest =
       std::async(std::launch::async, [&file] { return file.Sha256(); });
   // Digests to match against: content digests of all rows, feature digests of the holdout.
-  MatchTables tables;
-  UNSEEN_ASSIGN_OR_RETURN(tables.content_digests, ledger.GetBlob(st.content_digests));
-  if (tables.content_digests.size() != src.rows * sizeof(RowDigest)) {
-    return Status::Corruption("the content digest list does not match the source's row count");
-  }
-  UNSEEN_ASSIGN_OR_RETURN(tables.holdout_feature_digests,
-                          ledger.GetBlob(st.seal->holdout_feature_digests));
-  UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
-  UNSEEN_ASSIGN_OR_RETURN(tables.holdout, RowSet::Deserialize(set_bytes));
+  // The matcher reads them from the ledger on its own thread, while this one reads the file and
+  // leaves the ledger alone until Finish().
+  auto load_tables = [&ledger, &st, &src]() -> Result<MatchTables> {
+    MatchTables tables;
+    UNSEEN_ASSIGN_OR_RETURN(tables.content_digests, ledger.GetBlob(st.content_digests));
+    if (tables.content_digests.size() != src.rows * sizeof(RowDigest)) {
+      return Status::Corruption("the content digest list does not match the source's row count");
+    }
+    UNSEEN_ASSIGN_OR_RETURN(tables.holdout_feature_digests,
+                            ledger.GetBlob(st.seal->holdout_feature_digests));
+    UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
+    UNSEEN_ASSIGN_OR_RETURN(tables.holdout, RowSet::Deserialize(set_bytes));
+    return tables;
+  };
 
   LoadedData out;
   out.path = path;
@@ -173,7 +178,7 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   // This thread reads the rows and their values; the matcher hashes and looks them up on
   // another. A holdout row is refused even when the file has other errors, so after the first
   // bad value the rows are still read and matched, and their values no longer kept.
-  RowMatcher matcher(std::move(tables), src.columns.size(), target_col, id_col,
+  RowMatcher matcher(load_tables, src.columns.size(), target_col, id_col,
                      full_row && labelled, purpose == DataPurpose::kDevRows);
   std::unique_ptr<MatchBatch> batch = matcher.NewBatch();
   Status bad_value;
@@ -213,6 +218,7 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   });
   if (batch->rows() > 0) matcher.Add(std::move(batch));
   MatchResult matched = matcher.Finish();
+  UNSEEN_RETURN_IF_ERROR(matched.status);
   UNSEEN_RETURN_IF_ERROR(s);
   refusal->holdout_rows = matched.holdout_rows;
   refusal->not_dev_rows = matched.other_rows;

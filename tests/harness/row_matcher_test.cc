@@ -7,6 +7,7 @@
 
 #include "harness/data/row_digest.h"
 #include "storage/digest.h"
+#include "tests/testing/testing.h"
 
 namespace unseen {
 namespace {
@@ -33,12 +34,22 @@ class Source {
       : rows_(std::move(rows)), holdout_rows_(std::move(holdout_rows)) {}
 
   // Matches `file` (lines from 2) in full batches and a last part.
-  MatchResult Match(const std::vector<Row>& file, bool by_content, bool dev_required) const {
-    std::vector<Row> held;
-    for (uint32_t h : holdout_rows_) held.push_back(rows_[h]);
-    MatchTables tables{Digests(rows_, {kId}), Digests(held, {kId, kTarget}),
-                       RowSet::FromSorted(holdout_rows_)};
-    RowMatcher m(std::move(tables), kColumns, kTarget, kId, by_content, dev_required);
+  // With `loaded_by_matcher`, the matcher builds the tables on its own thread.
+  MatchResult Match(const std::vector<Row>& file, bool by_content, bool dev_required,
+                    bool loaded_by_matcher = false) const {
+    auto tables = [this]() -> Result<MatchTables> {
+      std::vector<Row> held;
+      for (uint32_t h : holdout_rows_) held.push_back(rows_[h]);
+      return MatchTables{Digests(rows_, {kId}), Digests(held, {kId, kTarget}),
+                         RowSet::FromSorted(holdout_rows_)};
+    };
+    std::unique_ptr<RowMatcher> made =
+        loaded_by_matcher
+            ? std::make_unique<RowMatcher>(tables, kColumns, kTarget, kId, by_content,
+                                           dev_required)
+            : std::make_unique<RowMatcher>(std::move(*tables()), kColumns, kTarget, kId,
+                                           by_content, dev_required);
+    RowMatcher& m = *made;
     std::unique_ptr<MatchBatch> b = m.NewBatch();
     for (size_t i = 0; i < file.size(); ++i) {
       b->AddRow(file[i], i + 2);
@@ -122,12 +133,31 @@ TEST(RowMatcherTest, ManyBatchesGiveTheResultOfOneOrderedPass) {
     file.push_back(rows[i]);
     if (i % 1000 != 5) want_dev.push_back(i);
   }
-  const MatchResult r = src.Match(file, true, true);
-  EXPECT_EQ(r.dev_rows, want_dev);
-  EXPECT_EQ(r.holdout_rows, holdout.size());
-  ASSERT_EQ(r.first_lines.size(), 5u);
-  // The last holdout row comes first in the backwards file.
-  EXPECT_EQ(r.first_lines[0], rows.size() - holdout.back() + 1);
+  for (bool loaded_by_matcher : {false, true}) {
+    const MatchResult r = src.Match(file, true, true, loaded_by_matcher);
+    ASSERT_OK(r.status);
+    EXPECT_EQ(r.dev_rows, want_dev);
+    EXPECT_EQ(r.holdout_rows, holdout.size());
+    ASSERT_EQ(r.first_lines.size(), 5u);
+    // The last holdout row comes first in the backwards file.
+    EXPECT_EQ(r.first_lines[0], rows.size() - holdout.back() + 1);
+  }
+}
+
+TEST(RowMatcherTest, TablesThatCannotBeLoadedFailTheMatchAndMatchNothing) {
+  RowMatcher m([]() -> Result<MatchTables> { return Status::Corruption("blob damaged"); },
+               kColumns, kTarget, kId, true, true);
+  // Batches are still taken (the reader is not blocked), and come back unmatched.
+  for (int i = 0; i < 5; ++i) {
+    std::unique_ptr<MatchBatch> b = m.NewBatch();
+    b->AddRow(kA, 2);
+    m.Add(std::move(b));
+  }
+  const MatchResult r = m.Finish();
+  EXPECT_TRUE(r.status.IsCorruption()) << r.status.ToString();
+  EXPECT_TRUE(r.dev_rows.empty());
+  EXPECT_EQ(r.holdout_rows, 0u);
+  EXPECT_EQ(r.other_rows, 0u);
 }
 
 }  // namespace
