@@ -775,4 +775,46 @@ uint64_t CsvFile::FieldOffset(const CsvRecord& record, size_t column) const {
   return record.offset + FieldOffsetIn(record.raw, options_.delimiter, column);
 }
 
+void SplitWellFormedRecord(std::string_view raw, char delimiter,
+                           std::vector<std::string_view>* fields, std::string* scratch) {
+  fields->clear();
+  scratch->clear();
+  scratch->reserve(raw.size());  // unescaped values are shorter: no reallocation below
+  const char* p = raw.data();
+  const char* const end = p + raw.size();
+  for (;;) {
+    if (p < end && *p == '"') {
+      const char* const value = ++p;
+      bool doubled = false;
+      for (; p < end; ++p) {
+        if (*p != '"') continue;
+        if (p + 1 < end && p[1] == '"') {
+          doubled = true;
+          ++p;
+          continue;
+        }
+        break;
+      }
+      std::string_view v(value, static_cast<size_t>(p - value));
+      if (doubled) {
+        const size_t at = scratch->size();
+        for (size_t k = 0; k < v.size(); ++k) {
+          scratch->push_back(v[k]);
+          if (v[k] == '"') ++k;
+        }
+        v = std::string_view(scratch->data() + at, scratch->size() - at);
+      }
+      fields->push_back(v);
+      if (p < end) ++p;  // the closing quote
+    } else {
+      const void* at = std::memchr(p, delimiter, static_cast<size_t>(end - p));
+      const char* q = at ? static_cast<const char*>(at) : end;
+      fields->emplace_back(p, static_cast<size_t>(q - p));
+      p = q;
+    }
+    if (p >= end || *p != delimiter) return;
+    ++p;  // the delimiter: another field follows, maybe empty
+  }
+}
+
 }  // namespace unseen

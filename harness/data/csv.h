@@ -164,6 +164,14 @@ class CsvFile {
   mutable uint64_t cached_line_start_ = 0;
 };
 
+// Splits `raw`, the bytes of one record of a well-formed file (as CsvRecord::raw gives them,
+// from a pass that found no error in it), into its unescaped fields, which replace *fields. A
+// field with doubled quotes is unescaped into *scratch, which the views then point into: keep
+// it unchanged while they are used. Nothing is checked: on bytes that are not such a record the
+// fields are meaningless (but every view stays within raw or *scratch).
+void SplitWellFormedRecord(std::string_view raw, char delimiter,
+                           std::vector<std::string_view>* fields, std::string* scratch);
+
 // True for the missing-value spellings "", "NA" and "NaN" (exactly these, case-sensitive).
 inline bool IsMissing(std::string_view cell) {
   return cell.empty() || cell == "NA" || cell == "NaN";

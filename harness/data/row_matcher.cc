@@ -13,37 +13,21 @@ constexpr size_t kMaxOutstanding = 3;
 
 }  // namespace
 
-size_t MatchBatch::AddRow(const std::vector<std::string_view>& cells, uint64_t line) {
-  const size_t at = kinds.size();
-  kinds.resize(at + columns);
-  numbers.resize(at + columns);
-  for (size_t c = 0; c < columns; ++c) {
-    const CellKind kind = ClassifyCell(cells[c], &numbers[at + c]);
-    kinds[at + c] = kind;
-    if (kind == CellKind::kText) {
-      const uint32_t n = static_cast<uint32_t>(cells[c].size());
-      text.append(reinterpret_cast<const char*>(&n), sizeof n);
-      text.append(cells[c]);
-    }
-  }
-  lines.push_back(line);
-  return at;
-}
-
-RowMatcher::RowMatcher(MatchTables tables, size_t columns, size_t target, std::optional<size_t> id,
-                       bool by_content, bool dev_required)
+RowMatcher::RowMatcher(MatchTables tables, MatchLayout layout, size_t target,
+                       std::optional<size_t> id, bool by_content, bool dev_required)
     : tables_(std::move(tables)),
-      columns_(columns),
+      layout_(std::move(layout)),
       target_(target),
       id_(id),
       by_content_(by_content),
       dev_required_(dev_required),
       worker_([this] { Work(); }) {}
 
-RowMatcher::RowMatcher(std::function<Result<MatchTables>()> load, size_t columns, size_t target,
-                       std::optional<size_t> id, bool by_content, bool dev_required)
+RowMatcher::RowMatcher(std::function<Result<MatchTables>()> load, MatchLayout layout,
+                       size_t target, std::optional<size_t> id, bool by_content,
+                       bool dev_required)
     : load_(std::move(load)),
-      columns_(columns),
+      layout_(std::move(layout)),
       target_(target),
       id_(id),
       by_content_(by_content),
@@ -66,7 +50,6 @@ std::unique_ptr<MatchBatch> RowMatcher::NewBatch() {
     free_.pop_back();
     b->Clear();
   }
-  b->columns = columns_;
   return b;
 }
 
@@ -111,7 +94,7 @@ void RowMatcher::Work() {
       b = std::move(queue_.front());
       queue_.pop_front();
     }
-    if (result_.status.ok()) Match(*b);
+    if (result_.status.ok() && !stopped_.load(std::memory_order_relaxed)) Match(*b);
     {
       std::lock_guard<std::mutex> lock(mu_);
       free_.push_back(std::move(b));
@@ -126,35 +109,25 @@ void RowMatcher::Encode(const MatchBatch& b) {
   ends_.clear();
   target_begin_.clear();
   target_end_.clear();
-  const char* text = b.text.data();
+  const size_t columns = layout_.file_of_source.size();
   for (size_t r = 0; r < b.rows(); ++r) {
-    const size_t first = r * columns_;
-    // At most 9 bytes a cell, and 5 more than its bytes for a text cell.
-    size_t most = 9 * columns_;
-    const char* t = text;
-    for (size_t c = 0; c < columns_; ++c) {
-      if (b.kinds[first + c] != CellKind::kText) continue;
-      uint32_t n;
-      std::memcpy(&n, t, sizeof n);
-      most += n + 5;
-      t += sizeof n + n;
-    }
+    const std::string_view raw = b.records[r];
+    SplitWellFormedRecord(raw, layout_.delimiter, &fields_, &scratch_);
+    // A cell encodes to at most 9 bytes, or 5 more than its text.
     const size_t at = bytes_.size();
-    bytes_.resize(at + most);
+    bytes_.resize(at + raw.size() + 14 * columns);
     char* const base = bytes_.data();
     char* w = base + at;
-    for (size_t c = 0; c < columns_; ++c) {
-      const CellKind kind = b.kinds[first + c];
-      std::string_view cell;
-      if (kind == CellKind::kText) {
-        uint32_t n;
-        std::memcpy(&n, text, sizeof n);
-        cell = std::string_view(text + sizeof n, n);
-        text += sizeof n + n;
-      }
+    for (size_t c = 0; c < columns; ++c) {
       if (id_ && c == *id_) continue;
+      const int f = layout_.file_of_source[c];
+      const std::string_view cell =
+          f >= 0 && static_cast<size_t>(f) < fields_.size() ? fields_[static_cast<size_t>(f)]
+                                                            : std::string_view();
+      double v = 0;
+      const CellKind kind = ClassifyCell(cell, &v);
       if (c == target_) target_begin_.push_back(static_cast<uint32_t>(w - base));
-      w = EncodeClassifiedCell(kind, b.numbers[first + c], cell, w);
+      w = EncodeClassifiedCell(kind, v, cell, w);
       if (c == target_) target_end_.push_back(static_cast<uint32_t>(w - base));
     }
     bytes_.resize(static_cast<size_t>(w - base));

@@ -2,8 +2,8 @@
 // and whether they touch the sealed holdout, on a thread of its own while the caller goes on
 // reading the file.
 //
-// The caller classifies each row's cells and hands them over in batches, in file order. The
-// matcher encodes each row's canonical bytes (row_digest.h), hashes them and looks them up:
+// The caller hands the records over in batches, in file order. The matcher splits them into
+// cells, encodes each row's canonical bytes (row_digest.h), hashes them and looks them up:
 //   - by content digest among all the source's rows (when the file has every column): a match
 //     with a holdout row marks the row as a holdout row, unless it also matches a development
 //     row not matched yet, which it then is (the first such in row order);
@@ -15,6 +15,7 @@
 #ifndef UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
 #define UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
 
+#include <atomic>
 #include <condition_variable>
 #include <cstdint>
 #include <deque>
@@ -33,33 +34,41 @@
 
 namespace unseen {
 
-// Rows as classified by the caller, cells in source column order: cell c of row r is
-// kinds[r * columns + c], with its value at numbers[r * columns + c] when it is a number. The
-// bytes of the text cells follow one another in `text`, in cell order, each after its length
-// (4 bytes, native order). The caller reads its values back from the same arrays, so each cell
-// is parsed once.
+// Rows handed to the matcher, in file order: each record's bytes as the file has them (views
+// into the CsvFile, which must outlive the matcher, from a pass that found them well formed) and
+// the line it starts on. The matcher splits and classifies the cells itself, so the reading
+// thread does no more for it than this.
 struct MatchBatch {
-  size_t columns = 0;
-  std::vector<CellKind> kinds;
-  std::vector<double> numbers;
-  std::string text;
-  std::vector<uint64_t> lines;  // the file line of each row
+  std::vector<std::string_view> records;
+  std::vector<uint64_t> lines;
+  size_t bytes = 0;
 
   // Rows per batch: large enough that handing over costs nothing, small enough that the
-  // matcher starts early; a batch is also handed over past kMaxText text bytes.
+  // matcher starts early. A batch is also handed over past kMaxBytes, so that the matcher,
+  // a few batches behind the reader, stays within the pages CsvFile keeps mapped behind its
+  // cursor (csv.h).
   static constexpr size_t kRows = 4096;
-  static constexpr size_t kMaxText = size_t{64} << 20;
+  static constexpr size_t kMaxBytes = size_t{4} << 20;
 
   size_t rows() const { return lines.size(); }
-  bool full() const { return rows() >= kRows || text.size() >= kMaxText; }
-  // Classifies a row of `columns` cells and appends it; returns the offset of its first cell.
-  size_t AddRow(const std::vector<std::string_view>& cells, uint64_t line);
-  void Clear() {
-    kinds.clear();
-    numbers.clear();
-    text.clear();
-    lines.clear();
+  bool full() const { return rows() >= kRows || bytes >= kMaxBytes; }
+  void AddRow(std::string_view raw, uint64_t line) {
+    records.push_back(raw);
+    lines.push_back(line);
+    bytes += raw.size();
   }
+  void Clear() {
+    records.clear();
+    lines.clear();
+    bytes = 0;
+  }
+};
+
+// How the file's records map onto the source's columns.
+struct MatchLayout {
+  char delimiter = ',';
+  // Source column c is field file_of_source[c] of a record, or absent (an empty cell) when -1.
+  std::vector<int> file_of_source;
 };
 
 struct MatchResult {
@@ -79,18 +88,19 @@ struct MatchTables {
 
 class RowMatcher {
  public:
-  // Indexes `tables` on the matcher's thread, while the caller starts reading. `columns` is the
-  // source's column count, `target` its target column and `id` its id column, if any. With
+  // Indexes `tables` on the matcher's thread, while the caller starts reading. `layout` maps
+  // the file's fields onto the source's columns; `target` is the source's target column and
+  // `id` its id column, if any. With
   // `by_content` false (the file lacks a column), rows are matched by features only and none
   // is a development row. With `dev_required`, a row matched to no development row is
   // counted in other_rows.
   // REQUIRES: tables.content_digests holds 16 bytes for each source row.
-  RowMatcher(MatchTables tables, size_t columns, size_t target, std::optional<size_t> id,
+  RowMatcher(MatchTables tables, MatchLayout layout, size_t target, std::optional<size_t> id,
              bool by_content, bool dev_required);
   // The same, with the tables loaded by `load` on the matcher's thread, so that reading them
   // overlaps the caller's reading too. When `load` fails, batches are taken and not matched,
   // and Finish() returns its status. `load` must not touch what the caller uses meanwhile.
-  RowMatcher(std::function<Result<MatchTables>()> load, size_t columns, size_t target,
+  RowMatcher(std::function<Result<MatchTables>()> load, MatchLayout layout, size_t target,
              std::optional<size_t> id, bool by_content, bool dev_required);
   ~RowMatcher();  // Finish()es if needed
   RowMatcher(const RowMatcher&) = delete;
@@ -99,6 +109,9 @@ class RowMatcher {
   // A cleared batch to fill; give it back with Add(). Blocks while two batches wait.
   std::unique_ptr<MatchBatch> NewBatch();
   void Add(std::unique_ptr<MatchBatch> batch);
+  // Tells the thread to match no further batches: the caller knows the answer another way.
+  // Thread-safe; the result Finish() returns is then partial and must not be used.
+  void Stop() { stopped_.store(true, std::memory_order_relaxed); }
   // Waits until every batch added is matched, stops the thread and returns the result.
   // Call once.
   MatchResult Finish();
@@ -112,7 +125,8 @@ class RowMatcher {
   std::function<Result<MatchTables>()> load_;  // run first by the thread, when set
   MatchTables tables_;  // set before the thread starts, or by it
   std::optional<DigestIndex> content_, holdout_features_;  // built by the thread, first
-  const size_t columns_, target_;
+  const MatchLayout layout_;
+  const size_t target_;
   const std::optional<size_t> id_;
   const bool by_content_, dev_required_;
   std::vector<bool> used_;  // source rows already matched
@@ -123,6 +137,8 @@ class RowMatcher {
   std::string bytes_;
   std::vector<uint32_t> ends_, target_begin_, target_end_;
   std::vector<RowDigest> content_digests_;
+  std::vector<std::string_view> fields_;  // of the record being encoded
+  std::string scratch_;
 
   std::mutex mu_;
   std::condition_variable cv_;
@@ -130,6 +146,7 @@ class RowMatcher {
   std::vector<std::unique_ptr<MatchBatch>> free_;  // matched, for NewBatch()
   size_t outstanding_ = 0;  // handed out by NewBatch() and not yet returned to free_
   bool stopping_ = false;
+  std::atomic<bool> stopped_{false};
   std::thread worker_;  // last: starts after every member above exists
 };
 

@@ -1,6 +1,7 @@
 #include "harness/workflow/dataset.h"
 
 #include <algorithm>
+#include <atomic>
 #include <cmath>
 #include <cstring>
 #include <future>
@@ -72,38 +73,41 @@ class ClassIndexer {
 // Appends a row's feature values to the frame and its target (class index or value) to
 // *target when `target_col` is set. InvalidArgument, without the location, for a value that
 // does not fit its column.
-Status AppendValues(const CellKind* kinds, const double* numbers,
-                    const std::vector<std::string_view>& canon,
+Status AppendValues(const std::vector<std::string_view>& canon,
                     const std::vector<size_t>& feature_cols, ClassIndexer* classes, TaskKind task,
                     std::optional<size_t> target_col, Frame* frame, std::vector<double>* target) {
   for (size_t k = 0; k < feature_cols.size(); ++k) {
-    const size_t c = feature_cols[k];
+    const std::string_view cell = canon[feature_cols[k]];
     FrameColumn& col = frame->columns[k];
     if (col.numeric) {
-      if (kinds[c] == CellKind::kText) {
-        return Status::InvalidArgument("column '" + col.name + "' holds '" + std::string(canon[c]) +
+      double v = 0;
+      const CellKind kind = ClassifyCell(cell, &v);
+      if (kind == CellKind::kText) {
+        return Status::InvalidArgument("column '" + col.name + "' holds '" + std::string(cell) +
                                        "'; expected a number");
       }
-      col.num.push_back(kinds[c] == CellKind::kNumber ? numbers[c] : NAN);
+      col.num.push_back(kind == CellKind::kNumber ? v : NAN);
     } else {
-      col.cat.push_back(IsMissing(canon[c]) ? std::string() : std::string(canon[c]));
+      col.cat.push_back(IsMissing(cell) ? std::string() : std::string(cell));
     }
   }
   if (!target_col) return Status::OK();
   std::string_view cell = canon[*target_col];
+  double v = 0;
+  const CellKind kind = ClassifyCell(cell, &v);
   if (task == TaskKind::kClassification) {
-    const int index = classes->Of(kinds[*target_col], numbers[*target_col], cell);
+    const int index = classes->Of(kind, v, cell);
     if (index < 0) {
       return Status::InvalidArgument("target '" + std::string(cell) +
                                      "' is not one of the source's classes");
     }
     target->push_back(index);
   } else {
-    if (kinds[*target_col] != CellKind::kNumber) {
+    if (kind != CellKind::kNumber) {
       return Status::InvalidArgument("target '" + std::string(cell) +
                                      "' is not a number; a regression task expects numbers");
     }
-    target->push_back(numbers[*target_col]);
+    target->push_back(v);
   }
   return Status::OK();
 }
@@ -137,11 +141,6 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
                                    ": expected every column of the source (development rows)");
   }
 
-  // The file's SHA-256 runs on another thread, over the same mapping the rows are read from, so
-  // the digest recorded is that of the bytes used.
-  const CsvFile& file = *csv;
-  std::future<Result<FileDigest>> file_digest =
-      std::async(std::launch::async, [&file] { return file.Sha256(); });
   // Digests to match against: content digests of all rows, feature digests of the holdout.
   // The matcher reads them from the ledger on its own thread, while this one reads the file and
   // leaves the ledger alone until Finish().
@@ -178,8 +177,25 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   // This thread reads the rows and their values; the matcher hashes and looks them up on
   // another. A holdout row is refused even when the file has other errors, so after the first
   // bad value the rows are still read and matched, and their values no longer kept.
-  RowMatcher matcher(load_tables, src.columns.size(), target_col, id_col,
+  RowMatcher matcher(load_tables, MatchLayout{src.delimiter, layout.file_of_source}, target_col,
+                     id_col,
                      full_row && labelled, purpose == DataPurpose::kDevRows);
+  // The file's SHA-256 runs on another thread, over the same mapping the rows are read from, so
+  // the digest recorded is that of the bytes used. When it is the digest of the dev file seal
+  // wrote, the file is that file: its rows are the development rows in source order, which is
+  // what matching them would find, so the matcher stops.
+  const CsvFile& file = *csv;
+  const SealInfo& seal = *st.seal;
+  std::atomic<bool> is_dev_file{false};
+  std::future<Result<FileDigest>> file_digest =
+      std::async(std::launch::async, [&file, &seal, &matcher, &is_dev_file] {
+        Result<FileDigest> d = file.Sha256();
+        if (d.ok() && d->size == seal.dev_out_size && d->sha256 == seal.dev_out_sha256) {
+          is_dev_file.store(true);
+          matcher.Stop();
+        }
+        return d;
+      });
   std::unique_ptr<MatchBatch> batch = matcher.NewBatch();
   Status bad_value;
   // A file with the source's columns in the source's order (a dev file) is read as it is.
@@ -195,11 +211,9 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
       }
     }
     const std::vector<std::string_view>& row = same_order ? *r.fields : canon;
-    // Each cell is parsed once, into the batch: the values are read back from there.
-    const size_t at = batch->AddRow(row, r.line);
+    batch->AddRow(r.raw, r.line);  // the matcher splits and classifies it on its thread
     if (bad_value.ok()) {
-      bad_value = AppendValues(batch->kinds.data() + at, batch->numbers.data() + at, row,
-                               feature_cols, &classes, src.task,
+      bad_value = AppendValues(row, feature_cols, &classes, src.task,
                                labelled ? std::optional<size_t>(target_col) : std::nullopt,
                                &out.features, &target);
       if (bad_value.ok()) {
@@ -217,9 +231,23 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
     return Status::OK();
   });
   if (batch->rows() > 0) matcher.Add(std::move(batch));
+  Result<FileDigest> fd = file_digest.get();
   MatchResult matched = matcher.Finish();
   UNSEEN_RETURN_IF_ERROR(matched.status);
   UNSEEN_RETURN_IF_ERROR(s);
+  if (!fd.ok()) return fd.status();
+  if (is_dev_file.load()) {
+    UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger.GetBlob(seal.dev_set));
+    UNSEEN_ASSIGN_OR_RETURN(RowSet dev, RowSet::Deserialize(dev_bytes));
+    matched.dev_rows = dev.ToVector();
+    matched.holdout_rows = matched.other_rows = 0;
+    matched.first_lines.clear();
+    if (matched.dev_rows.size() != out.lines.size() && bad_value.ok()) {
+      return Status::Corruption(path + ": has the dev file's SHA-256 but " +
+                                std::to_string(out.lines.size()) + " rows, not the " +
+                                std::to_string(matched.dev_rows.size()) + " of the dev row set");
+    }
+  }
   refusal->holdout_rows = matched.holdout_rows;
   refusal->not_dev_rows = matched.other_rows;
   refusal->first_lines = matched.first_lines;
@@ -243,8 +271,7 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   out.source_rows = dev_rows;
   std::sort(dev_rows.begin(), dev_rows.end());
   out.rows_read = RowSet::FromSorted(dev_rows);
-  UNSEEN_ASSIGN_OR_RETURN(FileDigest fd, file_digest.get());
-  out.file_sha256 = fd.sha256;
+  out.file_sha256 = fd->sha256;
   return out;
 }
 

@@ -42,6 +42,8 @@ Result<SealInfo> SealFromJson(const Entry& e) {
     s.budget_half_width = j.at("budget").value("half_width", 0.0);
     s.budget_delta = j.at("budget").value("delta", 0.05);
     s.dev_out_path = j.at("dev").at("file").at("path").get<std::string>();
+    UNSEEN_ASSIGN_OR_RETURN(s.dev_out_sha256, HexField(j.at("dev").at("file"), "sha256"));
+    s.dev_out_size = j.at("dev").at("file").at("size").get<uint64_t>();
   } catch (const std::exception& ex) {
     return Status::Corruption("entry " + std::to_string(e.seq) + " (seal) is malformed: " + ex.what());
   }

@@ -36,6 +36,8 @@ struct SealInfo {
   double budget_half_width = 0;  // 0: no half-width limit
   double budget_delta = 0.05;
   std::string dev_out_path;  // where seal wrote the development rows
+  Digest256 dev_out_sha256{};  // and that file's SHA-256 and size
+  uint64_t dev_out_size = 0;
 };
 
 struct LedgerState {

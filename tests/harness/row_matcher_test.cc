@@ -27,6 +27,9 @@ std::string Digests(const std::vector<Row>& rows, std::vector<size_t> skip) {
   return out;
 }
 
+// A file with the source's columns in the source's order.
+MatchLayout Identity() { return MatchLayout{',', {0, 1, 2}}; }
+
 // The source (rows in order) and its holdout (row numbers, ascending), as the ledger holds them.
 class Source {
  public:
@@ -37,6 +40,20 @@ class Source {
   // With `loaded_by_matcher`, the matcher builds the tables on its own thread.
   MatchResult Match(const std::vector<Row>& file, bool by_content, bool dev_required,
                     bool loaded_by_matcher = false) const {
+    // The records as a file holds them: cells joined by the delimiter.
+    std::vector<std::string> records;
+    for (const Row& row : file) {
+      std::string line;
+      for (size_t c = 0; c < row.size(); ++c) line += (c ? "," : "") + std::string(row[c]);
+      records.push_back(line);
+    }
+    return MatchRecords(records, Identity(), by_content, dev_required, loaded_by_matcher);
+  }
+
+  // Matches records as a file holds them, mapped onto the source's columns by `layout`.
+  MatchResult MatchRecords(const std::vector<std::string>& records, const MatchLayout& layout,
+                           bool by_content, bool dev_required,
+                           bool loaded_by_matcher = false) const {
     auto tables = [this]() -> Result<MatchTables> {
       std::vector<Row> held;
       for (uint32_t h : holdout_rows_) held.push_back(rows_[h]);
@@ -45,14 +62,14 @@ class Source {
     };
     std::unique_ptr<RowMatcher> made =
         loaded_by_matcher
-            ? std::make_unique<RowMatcher>(tables, kColumns, kTarget, kId, by_content,
+            ? std::make_unique<RowMatcher>(tables, layout, kTarget, kId, by_content,
                                            dev_required)
-            : std::make_unique<RowMatcher>(std::move(*tables()), kColumns, kTarget, kId,
+            : std::make_unique<RowMatcher>(std::move(*tables()), layout, kTarget, kId,
                                            by_content, dev_required);
     RowMatcher& m = *made;
     std::unique_ptr<MatchBatch> b = m.NewBatch();
-    for (size_t i = 0; i < file.size(); ++i) {
-      b->AddRow(file[i], i + 2);
+    for (size_t i = 0; i < records.size(); ++i) {
+      b->AddRow(records[i], i + 2);
       if (b->full()) {
         m.Add(std::move(b));
         b = m.NewBatch();
@@ -144,13 +161,27 @@ TEST(RowMatcherTest, ManyBatchesGiveTheResultOfOneOrderedPass) {
   }
 }
 
+TEST(RowMatcherTest, QuotedCellsAndOtherColumnOrdersAreMatchedByTheirValues) {
+  const Row quoted{"id9", "a,\"b\"", "1"};
+  const Source src({kA, quoted, kB, kC}, {3});
+  // The file quotes the cell (a delimiter and doubled quotes inside) and puts the target
+  // first: the digests are of the values, in the source's column order.
+  const MatchResult r = src.MatchRecords(
+      {"0,id1,apple", "1,id9,\"a,\"\"b\"\"\"", "0,id3,pear"}, MatchLayout{',', {1, 2, 0}}, true,
+      true);
+  ASSERT_OK(r.status);
+  EXPECT_EQ(r.dev_rows, (std::vector<uint32_t>{0, 1}));
+  EXPECT_EQ(r.holdout_rows, 1u);
+  EXPECT_EQ(r.first_lines, (std::vector<uint64_t>{4}));
+}
+
 TEST(RowMatcherTest, TablesThatCannotBeLoadedFailTheMatchAndMatchNothing) {
   RowMatcher m([]() -> Result<MatchTables> { return Status::Corruption("blob damaged"); },
-               kColumns, kTarget, kId, true, true);
+               Identity(), kTarget, kId, true, true);
   // Batches are still taken (the reader is not blocked), and come back unmatched.
   for (int i = 0; i < 5; ++i) {
     std::unique_ptr<MatchBatch> b = m.NewBatch();
-    b->AddRow(kA, 2);
+    b->AddRow("id1,apple,0", 2);
     m.Add(std::move(b));
   }
   const MatchResult r = m.Finish();
