@@ -239,6 +239,36 @@ TEST_F(FitTest, BlendFittedOnItsMembersTrainingRowsIsRefused) {
   EXPECT_EQ(mixed.err.find("member 'm1x'"), std::string::npos) << mixed.err;
 }
 
+// The dev file seal wrote is known by its digest and is not matched row by row; the same rows
+// in another order are matched one by one. Both read exactly the seal's dev rows.
+TEST_F(FitTest, TheDevFileAndItsRowsReorderedReadTheSealsDevRows) {
+  std::string dev = ReadFile(dir_.File("dev.csv"));
+  const size_t header_end = dev.find('\n') + 1;
+  std::vector<std::string> rows;
+  for (size_t at = header_end; at < dev.size();) {
+    const size_t end = dev.find('\n', at) + 1;
+    rows.push_back(dev.substr(at, end - at));
+    at = end;
+  }
+  std::string reversed = dev.substr(0, header_end);
+  for (size_t i = rows.size(); i-- > 0;) reversed += rows[i];
+  WriteFile(dir_.File("reversed.csv"), reversed);
+  RunResult a = Fit("a"), b = Fit("b", "--data " + Q("reversed.csv"));
+  ASSERT_EQ(a.exit_code, 0) << a.err;
+  ASSERT_EQ(b.exit_code, 0) << b.err;
+  json h = History();
+  json seal;
+  int fits = 0;
+  for (const json& e : h) {
+    if (e["kind"] == "seal") seal = e["body"];
+    if (e["kind"] != "fit") continue;
+    ++fits;
+    EXPECT_EQ(e["body"]["rows_read"], seal["dev"]["row_set"]) << e.dump();
+    EXPECT_EQ(e["body"]["rows"], seal["dev"]["rows"]) << e.dump();
+  }
+  EXPECT_EQ(fits, 2);
+}
+
 TEST_F(FitTest, RowsThatAreNotDevRowsAreRefused) {
   WriteFile(dir_.File("other.csv"), testing::SampleCsv(50, 5, 77));
   RunResult r = Fit("other", "--data " + Q("other.csv"));
