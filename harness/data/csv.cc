@@ -468,6 +468,16 @@ const char* RecordEnd(const char* p, const char* end, const char** next_quote,
   return c;
 }
 
+// The ragged-row error for the record `parser` has just read, or OK when it has `columns` fields.
+Status CheckFieldCount(const CsvFile& file, const RecordParser& parser, size_t columns) {
+  if (parser.field_count() == columns) return Status::OK();
+  const uint64_t at =
+      parser.field_count() > columns ? parser.extra_field_offset() : parser.content_end();
+  return Status::InvalidArgument(file.Location(at) + ": ragged row: expected " +
+                                 std::to_string(columns) + " fields, found " +
+                                 std::to_string(parser.field_count()));
+}
+
 Status OpenError(const std::string& path, int err) {
   std::string msg = path + ": " + std::strerror(err);
   if (err == ENOENT) return Status::NotFound(msg + "; expected an existing CSV file");
@@ -601,14 +611,8 @@ Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn)
     while (!parser.AtEnd()) {
       status = parser.Next();
       if (!status.ok()) break;
-      if (parser.field_count() != columns) {
-        const uint64_t at =
-            parser.field_count() > columns ? parser.extra_field_offset() : parser.content_end();
-        status = Status::InvalidArgument(Location(at) + ": ragged row: expected " +
-                                         std::to_string(columns) + " fields, found " +
-                                         std::to_string(parser.field_count()));
-        break;
-      }
+      status = CheckFieldCount(*this, parser, columns);
+      if (!status.ok()) break;
       record.index = index++;
       record.line = parser.record_line();
       record.offset = parser.record_begin();
@@ -656,14 +660,8 @@ Status CsvFile::ForEachRecordParsing(const std::vector<uint32_t>& parse,
         parser.Seek(record.offset, line, line_start);
         status = parser.Next();
         if (!status.ok()) break;
-        if (parser.field_count() != columns) {
-          const uint64_t at =
-              parser.field_count() > columns ? parser.extra_field_offset() : parser.content_end();
-          status = Status::InvalidArgument(Location(at) + ": ragged row: expected " +
-                                           std::to_string(columns) + " fields, found " +
-                                           std::to_string(parser.field_count()));
-          break;
-        }
+        status = CheckFieldCount(*this, parser, columns);
+        if (!status.ok()) break;
         record.raw = parser.raw();
         record.raw_line = std::string_view(p, parser.pos() - record.offset);
         record.fields = &parser.fields();

@@ -15,17 +15,12 @@ constexpr size_t kMaxOutstanding = 3;
 
 RowMatcher::RowMatcher(MatchTables tables, MatchLayout layout, size_t target,
                        std::optional<size_t> id, bool by_content, bool dev_required)
-    : tables_(std::move(tables)),
-      layout_(std::move(layout)),
-      target_(target),
-      id_(id),
-      by_content_(by_content),
-      dev_required_(dev_required),
-      worker_([this] { Work(); }) {}
+    : RowMatcher([held = std::make_shared<MatchTables>(
+                      std::move(tables))]() -> Result<MatchTables> { return std::move(*held); },
+                 std::move(layout), target, id, by_content, dev_required) {}
 
-RowMatcher::RowMatcher(std::function<Result<MatchTables>()> load, MatchLayout layout,
-                       size_t target, std::optional<size_t> id, bool by_content,
-                       bool dev_required)
+RowMatcher::RowMatcher(std::function<Result<MatchTables>()> load, MatchLayout layout, size_t target,
+                       std::optional<size_t> id, bool by_content, bool dev_required)
     : load_(std::move(load)),
       layout_(std::move(layout)),
       target_(target),
@@ -72,13 +67,11 @@ MatchResult RowMatcher::Finish() {
 }
 
 void RowMatcher::Work() {
-  if (load_) {
-    Result<MatchTables> loaded = load_();
-    if (loaded.ok()) {
-      tables_ = std::move(*loaded);
-    } else {
-      result_.status = loaded.status();
-    }
+  Result<MatchTables> loaded = load_();
+  if (loaded.ok()) {
+    tables_ = std::move(*loaded);
+  } else {
+    result_.status = loaded.status();
   }
   if (result_.status.ok()) {
     if (by_content_) used_.assign(tables_.content_digests.size() / sizeof(RowDigest), false);
@@ -121,9 +114,9 @@ void RowMatcher::Encode(const MatchBatch& b) {
     for (size_t c = 0; c < columns; ++c) {
       if (id_ && c == *id_) continue;
       const int f = layout_.file_of_source[c];
-      const std::string_view cell =
-          f >= 0 && static_cast<size_t>(f) < fields_.size() ? fields_[static_cast<size_t>(f)]
-                                                            : std::string_view();
+      const std::string_view cell = f >= 0 && static_cast<size_t>(f) < fields_.size()
+                                        ? fields_[static_cast<size_t>(f)]
+                                        : std::string_view();
       double v = 0;
       const CellKind kind = ClassifyCell(cell, &v);
       if (c == target_) target_begin_.push_back(static_cast<uint32_t>(w - base));

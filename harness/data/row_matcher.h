@@ -122,8 +122,8 @@ class RowMatcher {
   // Encodes the rows of `b` into bytes_, ends_, target_begin_ and target_end_.
   void Encode(const MatchBatch& b);
 
-  std::function<Result<MatchTables>()> load_;  // run first by the thread, when set
-  MatchTables tables_;  // set before the thread starts, or by it
+  std::function<Result<MatchTables>()> load_;              // run first by the thread
+  MatchTables tables_;                                     // what load_ gave
   std::optional<DigestIndex> content_, holdout_features_;  // built by the thread, first
   const MatchLayout layout_;
   const size_t target_;

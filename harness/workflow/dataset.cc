@@ -178,8 +178,7 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   // another. A holdout row is refused even when the file has other errors, so after the first
   // bad value the rows are still read and matched, and their values no longer kept.
   RowMatcher matcher(load_tables, MatchLayout{src.delimiter, layout.file_of_source}, target_col,
-                     id_col,
-                     full_row && labelled, purpose == DataPurpose::kDevRows);
+                     id_col, full_row && labelled, purpose == DataPurpose::kDevRows);
   // The file's SHA-256 runs on another thread, over the same mapping the rows are read from, so
   // the digest recorded is that of the bytes used. When it is the digest of the dev file seal
   // wrote, the file is that file: its rows are the development rows in source order, which is

@@ -664,10 +664,11 @@ TEST_F(CsvTest, FiftyMegabyteFileStreamsWithBoundedMemory) {
 TEST_F(CsvTest, ParsingSomeRecordsCutsTheFileAsReadingAllDoes) {
   const std::vector<std::string> files = {
       "a,b\n1,2\n3,4\n5,6\n",
-      "a,b\r\n1,2\r\n3,4\r\n5,6",                                  // CRLF, no final line end
-      "\xEF\xBB\xBF" "a,b\n\"x\ny\",2\n\"q\"\"\"\"\",4\n\"\",\"\r\n\"\r\n",  // BOM, LF in quotes
-      "a\n\n1\n\n",                                                     // empty records
-      "a,b\n\"1\n\n2\",\"3\"\"\n\"\n4,5\r\n6,\"7\"\n",                     // several LFs in one field
+      "a,b\r\n1,2\r\n3,4\r\n5,6",  // CRLF, no final line end
+      "\xEF\xBB\xBF"
+      "a,b\n\"x\ny\",2\n\"q\"\"\"\"\",4\n\"\",\"\r\n\"\r\n",  // BOM, LF in quotes
+      "a\n\n1\n\n",                                           // empty records
+      "a,b\n\"1\n\n2\",\"3\"\"\n\"\n4,5\r\n6,\"7\"\n",        // several LFs in one field
   };
   for (const std::string& content : files) {
     SCOPED_TRACE(content);
@@ -753,12 +754,10 @@ TEST_F(CsvTest, ParsingSomeRecordsChecksThoseItParses) {
   ASSERT_OK((*csv)->ForEachRecordParsing({0, 2}, [](const CsvRecord&) { return Status::OK(); }));
   EXPECT_ERROR_AT((*csv)->ForEachRecordParsing({1}, [](const CsvRecord&) { return Status::OK(); }),
                   3, 2, "ragged row: expected 2 fields, found 1");
-  const Status past = (*csv)->ForEachRecordParsing({2, 7}, [](const CsvRecord&) {
-    return Status::OK();
-  });
+  const Status past =
+      (*csv)->ForEachRecordParsing({2, 7}, [](const CsvRecord&) { return Status::OK(); });
   EXPECT_TRUE(past.IsInvalidArgument()) << past.ToString();
-  EXPECT_NE(past.message().find("has 3 records; expected a record with index 7"),
-            std::string::npos)
+  EXPECT_NE(past.message().find("has 3 records; expected a record with index 7"), std::string::npos)
       << past.message();
 }
 

@@ -62,10 +62,9 @@ class Source {
     };
     std::unique_ptr<RowMatcher> made =
         loaded_by_matcher
-            ? std::make_unique<RowMatcher>(tables, layout, kTarget, kId, by_content,
-                                           dev_required)
-            : std::make_unique<RowMatcher>(std::move(*tables()), layout, kTarget, kId,
-                                           by_content, dev_required);
+            ? std::make_unique<RowMatcher>(tables, layout, kTarget, kId, by_content, dev_required)
+            : std::make_unique<RowMatcher>(std::move(*tables()), layout, kTarget, kId, by_content,
+                                           dev_required);
     RowMatcher& m = *made;
     std::unique_ptr<MatchBatch> b = m.NewBatch();
     for (size_t i = 0; i < records.size(); ++i) {
@@ -166,9 +165,8 @@ TEST(RowMatcherTest, QuotedCellsAndOtherColumnOrdersAreMatchedByTheirValues) {
   const Source src({kA, quoted, kB, kC}, {3});
   // The file quotes the cell (a delimiter and doubled quotes inside) and puts the target
   // first: the digests are of the values, in the source's column order.
-  const MatchResult r = src.MatchRecords(
-      {"0,id1,apple", "1,id9,\"a,\"\"b\"\"\"", "0,id3,pear"}, MatchLayout{',', {1, 2, 0}}, true,
-      true);
+  const MatchResult r = src.MatchRecords({"0,id1,apple", "1,id9,\"a,\"\"b\"\"\"", "0,id3,pear"},
+                                         MatchLayout{',', {1, 2, 0}}, true, true);
   ASSERT_OK(r.status);
   EXPECT_EQ(r.dev_rows, (std::vector<uint32_t>{0, 1}));
   EXPECT_EQ(r.holdout_rows, 1u);
