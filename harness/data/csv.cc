@@ -599,9 +599,23 @@ std::string_view CsvFile::header_raw() const {
   return {data_ + bom_, static_cast<size_t>(header_end_ - bom_)};
 }
 
-Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn) const {
+Status CsvFile::RecordPass(const std::function<Status(uint64_t* released)>& body) const {
   uint64_t released = 0;
+  Status status;
   try {
+    status = body(&released);
+  } catch (const std::exception& e) {
+    status = Status::Internal(path_ + ": while reading records: " + e.what());
+  } catch (...) {
+    status = Status::Internal(path_ + ": while reading records: an unknown exception");
+  }
+  Release(size_, &released);
+  return status;
+}
+
+Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn) const {
+  return RecordPass([&](uint64_t* released_at) -> Status {
+    uint64_t& released = *released_at;
     const size_t columns = header_.size();
     RecordParser parser(path_, data_, size_, options_.delimiter, columns);
     parser.Seek(body_begin_, body_line_, body_line_ == 1 ? bom_ : body_begin_);
@@ -625,21 +639,14 @@ Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn)
         Release(parser.pos() - kReleaseLag, &released);
       }
     }
-    Release(size_, &released);
     return status;
-  } catch (const std::exception& e) {
-    Release(size_, &released);
-    return Status::Internal(path_ + ": while reading records: " + e.what());
-  } catch (...) {
-    Release(size_, &released);
-    return Status::Internal(path_ + ": while reading records: an unknown exception");
-  }
+  });
 }
 
 Status CsvFile::ForEachRecordParsing(const std::vector<uint32_t>& parse,
                                      const std::function<Status(const CsvRecord&)>& fn) const {
-  uint64_t released = 0;
-  try {
+  return RecordPass([&](uint64_t* released_at) -> Status {
+    uint64_t& released = *released_at;
     const size_t columns = header_.size();
     RecordParser parser(path_, data_, size_, options_.delimiter, columns);
     const char* const end = data_ + size_;
@@ -690,15 +697,8 @@ Status CsvFile::ForEachRecordParsing(const std::vector<uint32_t>& parse,
                                        " records; expected a record with index " +
                                        std::to_string(parse[next_parse]));
     }
-    Release(size_, &released);
     return status;
-  } catch (const std::exception& e) {
-    Release(size_, &released);
-    return Status::Internal(path_ + ": while reading records: " + e.what());
-  } catch (...) {
-    Release(size_, &released);
-    return Status::Internal(path_ + ": while reading records: an unknown exception");
-  }
+  });
 }
 
 Status CsvFile::ForEachChunk(size_t chunk_bytes,
