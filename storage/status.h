@@ -115,15 +115,18 @@ class [[nodiscard]] Result {
 
 }  // namespace unseen
 
-// Returns early from the enclosing function when `expr` (a Status) is not OK.
-#define UNSEEN_RETURN_IF_ERROR(expr)             \
-  do {                                           \
-    ::unseen::Status unseen_status_ = (expr);    \
-    if (!unseen_status_.ok()) return unseen_status_; \
-  } while (0)
-
 #define UNSEEN_CONCAT_INNER_(a, b) a##b
 #define UNSEEN_CONCAT_(a, b) UNSEEN_CONCAT_INNER_(a, b)
+
+// Returns early from the enclosing function when `expr` (a Status) is not OK. The temporary is
+// named by line, so that a lambda inside `expr` may use the macro too.
+#define UNSEEN_RETURN_IF_ERROR(expr) \
+  UNSEEN_RETURN_IF_ERROR_IMPL_(UNSEEN_CONCAT_(unseen_status_, __LINE__), expr)
+#define UNSEEN_RETURN_IF_ERROR_IMPL_(tmp, expr) \
+  do {                                          \
+    ::unseen::Status tmp = (expr);              \
+    if (!tmp.ok()) return tmp;                  \
+  } while (0)
 // Declares `lhs` from a Result<T> expression, or returns its Status.
 #define UNSEEN_ASSIGN_OR_RETURN(lhs, expr) \
   UNSEEN_ASSIGN_OR_RETURN_IMPL_(UNSEEN_CONCAT_(unseen_result_, __LINE__), lhs, expr)

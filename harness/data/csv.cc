@@ -595,6 +595,24 @@ CsvFile::~CsvFile() {
   if (mapped_) munmap(const_cast<char*>(data_), size_);
 }
 
+uint64_t CsvFile::EstimateRecords() const {
+  constexpr uint64_t kSample = uint64_t{1} << 20;
+  if (body_begin_ >= size_) return 0;
+  const uint64_t body = size_ - body_begin_;
+  const uint64_t sampled = std::min(body, kSample);
+  const char* const begin = data_ + body_begin_;
+  const char* const end = begin + sampled;
+  uint64_t lines = 0;
+  for (const char* p = begin;
+       (p = static_cast<const char*>(std::memchr(p, '\n', static_cast<size_t>(end - p))));) {
+    ++lines;
+    ++p;
+  }
+  if (sampled == body) return lines + (begin[sampled - 1] != '\n' ? 1 : 0);
+  if (lines == 0) return 1;
+  return lines * body / sampled + 1;
+}
+
 std::string_view CsvFile::header_raw() const {
   return {data_ + bom_, static_cast<size_t>(header_end_ - bom_)};
 }

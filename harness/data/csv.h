@@ -87,6 +87,10 @@ class CsvFile {
   std::string_view header_raw() const;
   // The file size in bytes.
   uint64_t size() const { return size_; }
+  // About how many data records the file holds, from the line ends in its first MiB after
+  // the header (exact for a smaller body without quoted line ends): for reserving room before
+  // a pass, never for a count. Does not read past that MiB.
+  uint64_t EstimateRecords() const;
 
   // Calls `fn` for every data record in file order. Returns OK when every record was read and
   // every call returned OK; stops at the first non-OK Status from `fn` and returns it; returns

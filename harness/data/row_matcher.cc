@@ -35,7 +35,7 @@ RowMatcher::~RowMatcher() {
 
 std::unique_ptr<MatchBatch> RowMatcher::NewBatch() {
   std::unique_lock<std::mutex> lock(mu_);
-  cv_.wait(lock, [this] { return outstanding_ < kMaxOutstanding; });
+  cv_.wait(lock, [this] { return outstanding_ < kMaxOutstanding || held_; });
   ++outstanding_;
   std::unique_ptr<MatchBatch> b;
   if (free_.empty()) {
@@ -54,6 +54,24 @@ void RowMatcher::Add(std::unique_ptr<MatchBatch> batch) {
     queue_.push_back(std::move(batch));
   }
   cv_.notify_all();
+}
+
+void RowMatcher::Hold() {
+  std::lock_guard<std::mutex> lock(mu_);
+  held_ = true;
+}
+
+void RowMatcher::Release() {
+  {
+    std::lock_guard<std::mutex> lock(mu_);
+    held_ = false;
+  }
+  cv_.notify_all();
+}
+
+void RowMatcher::Stop() {
+  stopped_.store(true, std::memory_order_relaxed);
+  Release();  // batches still waiting are handed back unmatched
 }
 
 MatchResult RowMatcher::Finish() {
@@ -82,7 +100,8 @@ void RowMatcher::Work() {
     std::unique_ptr<MatchBatch> b;
     {
       std::unique_lock<std::mutex> lock(mu_);
-      cv_.wait(lock, [this] { return !queue_.empty() || stopping_; });
+      // Finish() ends a hold: what is queued must then be matched.
+      cv_.wait(lock, [this] { return stopping_ || (!queue_.empty() && !held_); });
       if (queue_.empty()) return;
       b = std::move(queue_.front());
       queue_.pop_front();

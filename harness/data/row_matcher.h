@@ -106,12 +106,22 @@ class RowMatcher {
   RowMatcher(const RowMatcher&) = delete;
   RowMatcher& operator=(const RowMatcher&) = delete;
 
-  // A cleared batch to fill; give it back with Add(). Blocks while two batches wait.
+  // A cleared batch to fill; give it back with Add(). Blocks while two batches wait, unless
+  // held.
   std::unique_ptr<MatchBatch> NewBatch();
   void Add(std::unique_ptr<MatchBatch> batch);
+  // Holds back matching while the caller may yet learn the answer another way (and Stop()):
+  // the thread loads its tables and matches nothing until Release() or Stop(), and
+  // NewBatch() never blocks meanwhile, so batches queue up without bound. Meant for a short
+  // wait, such as a file digest that runs several times faster than the reader: the matcher
+  // then takes no CPU from the reader, and Release() leaves it the queued batches to catch up
+  // on. Views into pages the CsvFile has released by then are read in again. Call Hold()
+  // before the first Add(). Thread-safe.
+  void Hold();
+  void Release();
   // Tells the thread to match no further batches: the caller knows the answer another way.
   // Thread-safe; the result Finish() returns is then partial and must not be used.
-  void Stop() { stopped_.store(true, std::memory_order_relaxed); }
+  void Stop();
   // Waits until every batch added is matched, stops the thread and returns the result.
   // Call once.
   MatchResult Finish();
@@ -146,6 +156,7 @@ class RowMatcher {
   std::vector<std::unique_ptr<MatchBatch>> free_;  // matched, for NewBatch()
   size_t outstanding_ = 0;  // handed out by NewBatch() and not yet returned to free_
   bool stopping_ = false;
+  bool held_ = false;  // Hold() and no Release() or Stop() since
   std::atomic<bool> stopped_{false};
   std::thread worker_;  // last: starts after every member above exists
 };

@@ -5,7 +5,6 @@
 #define UNSEEN_HARNESS_PIPELINE_FRAME_H_
 
 #include <Eigen/Dense>
-
 #include <cmath>
 #include <string>
 #include <vector>
@@ -27,6 +26,16 @@ struct Frame {
 
   size_t rows() const { return columns.empty() ? 0 : columns[0].size(); }
   size_t cols() const { return columns.size(); }
+  // Room for `rows` rows in every column, so that filling them row by row copies nothing.
+  void Reserve(size_t rows) {
+    for (FrameColumn& c : columns) {
+      if (c.numeric) {
+        c.num.reserve(rows);
+      } else {
+        c.cat.reserve(rows);
+      }
+    }
+  }
   // Index of the column named `name`, or -1.
   int Find(const std::string& name) const {
     for (size_t i = 0; i < columns.size(); ++i) {
@@ -58,13 +67,15 @@ struct Frame {
     for (size_t c = 0; c < columns.size(); ++c) {
       const FrameColumn& col = columns[c];
       if (!col.numeric) {
-        return Status::InvalidArgument("column '" + col.name +
-                                       "' is categorical; expected an onehot transform before the learner");
+        return Status::InvalidArgument(
+            "column '" + col.name +
+            "' is categorical; expected an onehot transform before the learner");
       }
       for (size_t r = 0; r < col.num.size(); ++r) {
         if (std::isnan(col.num[r])) {
-          return Status::InvalidArgument("column '" + col.name +
-                                         "' has missing values; expected an impute transform before the learner");
+          return Status::InvalidArgument(
+              "column '" + col.name +
+              "' has missing values; expected an impute transform before the learner");
         }
         m(static_cast<Eigen::Index>(r), static_cast<Eigen::Index>(c)) = col.num[r];
       }

@@ -188,16 +188,15 @@ Result<ContributionFolds> AssignContributionFolds(const PipelineSpec& spec, cons
   if (spec.select && spec.select->validation) {
     f.k = 2;
     f.validation_only = true;
-    fold = AssignValidation(d.ids.size(), *spec.select->validation, f.seed, d.groups);
+    fold = AssignValidation(d.rows(), *spec.select->validation, f.seed, d.groups);
   } else {
     f.k = spec.select && spec.select->folds ? *spec.select->folds : kDefaultFolds;
-    fold = AssignFolds(d.ids.size(), f.k, f.seed, labels, d.groups);
+    fold = AssignFolds(d.rows(), f.k, f.seed, labels, d.groups);
   }
   if (!fold.ok()) {
     return Status::InvalidArgument(SpecWhere(spec.path, {spec.select ? spec.select->line : 1, 0}) +
                                    "blend contributions inside partition '" + partition + "' (" +
-                                   std::to_string(d.ids.size()) +
-                                   " rows): " + fold.status().message() +
+                                   std::to_string(d.rows()) + " rows): " + fold.status().message() +
                                    "; expected fewer [select] folds or a larger partition");
   }
   f.fold = std::move(*fold);
@@ -263,7 +262,7 @@ Result<FitReport> FitBlend(const FitRequest& req, const LedgerState& st, const P
 
   FitReport report;
   report.name = req.name;
-  report.rows = d.ids.size();
+  report.rows = d.rows();
   report.metric = MetricName(metric);
   report.selection = folds.validation_only ? "validation" : "k-fold";
   report.folds = folds.k;

@@ -173,6 +173,14 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   const std::optional<size_t> group_col = src.ColumnOf(ColumnRole::kGroup);
   const bool has_group = group_col && layout.file_of_source[*group_col] >= 0;
   const bool has_id = id_col && layout.file_of_source[*id_col] >= 0;
+  // Room for the rows the file seems to hold: vectors that grow by doubling would copy every
+  // column about once more and touch twice the memory.
+  const size_t expected_rows = csv->EstimateRecords();
+  out.features.Reserve(expected_rows);
+  if (labelled) target.reserve(expected_rows);
+  out.lines.reserve(expected_rows);
+  if (has_id) out.ids.reserve(expected_rows);
+  if (has_group) out.groups.reserve(expected_rows);
 
   // This thread reads the rows and their values; the matcher hashes and looks them up on
   // another. A holdout row is refused even when the file has other errors, so after the first
@@ -182,9 +190,12 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   // The file's SHA-256 runs on another thread, over the same mapping the rows are read from, so
   // the digest recorded is that of the bytes used. When it is the digest of the dev file seal
   // wrote, the file is that file: its rows are the development rows in source order, which is
-  // what matching them would find, so the matcher stops.
+  // what matching them would find, so the matcher stops. Until a file of the dev file's size
+  // is known to be another, the matcher is held, so that on two cores the reader and the
+  // digest each have one to themselves.
   const CsvFile& file = *csv;
   const SealInfo& seal = *st.seal;
+  if (file.size() == seal.dev_out_size) matcher.Hold();
   std::atomic<bool> is_dev_file{false};
   std::future<Result<FileDigest>> file_digest =
       std::async(std::launch::async, [&file, &seal, &matcher, &is_dev_file] {
@@ -192,6 +203,8 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
         if (d.ok() && d->size == seal.dev_out_size && d->sha256 == seal.dev_out_sha256) {
           is_dev_file.store(true);
           matcher.Stop();
+        } else {
+          matcher.Release();
         }
         return d;
       });
@@ -217,7 +230,7 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
                                &out.features, &target);
       if (bad_value.ok()) {
         out.lines.push_back(r.line);
-        out.ids.push_back(has_id ? std::string(row[*id_col]) : std::to_string(r.index));
+        if (has_id) out.ids.emplace_back(row[*id_col]);
         if (has_group) out.groups.emplace_back(row[*group_col]);
       } else {
         bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
@@ -286,7 +299,7 @@ LoadedData SelectRows(const LoadedData& d, const std::vector<size_t>& rows) {
     size_t r = rows[i];
     if (d.labelled)
       out.target(static_cast<Eigen::Index>(i)) = d.target(static_cast<Eigen::Index>(r));
-    out.ids.push_back(d.ids[r]);
+    out.ids.push_back(d.IdOf(r));  // a row number is the row's in `d`, so it is kept as text
     if (!d.groups.empty()) out.groups.push_back(d.groups[r]);
     out.source_rows.push_back(d.source_rows[r]);
     out.lines.push_back(d.lines[r]);

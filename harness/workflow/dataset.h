@@ -7,7 +7,6 @@
 #define UNSEEN_HARNESS_WORKFLOW_DATASET_H_
 
 #include <Eigen/Dense>
-
 #include <string>
 #include <vector>
 
@@ -29,11 +28,15 @@ struct LoadedData {
   Frame features;          // the source's feature columns, typed as registered
   Eigen::VectorXd target;  // class index or value; size 0 when the file has no target
   bool labelled = false;
-  std::vector<std::string> ids;      // the id column, else the 0-based data row number
-  std::vector<std::string> groups;   // the group column, when the source has one
-  std::vector<uint32_t> source_rows; // kDevRows: the source row of each data row
-  RowSet rows_read;                  // kDevRows: the source rows read
-  std::vector<uint64_t> lines;       // the file line of each data row
+  std::vector<std::string> ids;       // the id column; empty when the file has none (IdOf)
+  std::vector<std::string> groups;    // the group column, when the source has one
+  std::vector<uint32_t> source_rows;  // kDevRows: the source row of each data row
+  RowSet rows_read;                   // kDevRows: the source rows read
+  std::vector<uint64_t> lines;        // the file line of each data row
+
+  size_t rows() const { return lines.size(); }
+  // Row i's id: its id cell, or its 0-based data row number when the file has no id column.
+  std::string IdOf(size_t i) const { return ids.empty() ? std::to_string(i) : ids[i]; }
 };
 
 // What a refused file held, for the refusal entry.
@@ -60,7 +63,8 @@ std::vector<std::string> ClassLabels(const SourceInfo& source);
 // Appends a `refusal` entry in its own transaction; the refused command
 // changes nothing else.
 Status RecordRefusal(const std::string& ledger_path, const std::string& actor,
-                     const std::string& command, const Status& reason, const std::string& details_json);
+                     const std::string& command, const Status& reason,
+                     const std::string& details_json);
 
 }  // namespace unseen
 

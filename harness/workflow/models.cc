@@ -29,7 +29,8 @@ Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger) {
       m.tainted = b.value("tainted", false);
       out.push_back(std::move(m));
     } catch (const std::exception& ex) {
-      return Status::Corruption("entry " + std::to_string(e.seq) + " (fit) is malformed: " + ex.what());
+      return Status::Corruption("entry " + std::to_string(e.seq) +
+                                " (fit) is malformed: " + ex.what());
     }
   }
   UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> evals, ledger.EntriesOfKind("eval"));
@@ -44,7 +45,8 @@ Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger) {
         }
       }
     } catch (const std::exception& ex) {
-      return Status::Corruption("entry " + std::to_string(e.seq) + " (eval) is malformed: " + ex.what());
+      return Status::Corruption("entry " + std::to_string(e.seq) +
+                                " (eval) is malformed: " + ex.what());
     }
   }
   return out;
@@ -61,8 +63,8 @@ Result<json> LoadModel(const Ledger& ledger, const std::string& name, ModelSumma
     }
     known += (known.empty() ? "" : ", ") + m.name;
   }
-  return Status::NotFound("--model: no frozen model named '" + name + "' (models: " +
-                          (known.empty() ? std::string("none yet") : known) + ")");
+  return Status::NotFound("--model: no frozen model named '" + name +
+                          "' (models: " + (known.empty() ? std::string("none yet") : known) + ")");
 }
 
 Result<json> LoadModelByDigest(const Ledger& ledger, const Digest256& digest) {
@@ -77,9 +79,10 @@ Result<json> LoadModelByDigest(const Ledger& ledger, const Digest256& digest) {
 namespace {
 
 // Writes predictions as CSV; returns the file's SHA-256.
-Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d, const Predictions& p,
-                                   const json& model) {
-  std::vector<std::string> classes = model.at("target").at("classes").get<std::vector<std::string>>();
+Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d,
+                                   const Predictions& p, const json& model) {
+  std::vector<std::string> classes =
+      model.at("target").at("classes").get<std::vector<std::string>>();
   UNSEEN_ASSIGN_OR_RETURN(LearnTask task, FrozenModel::TaskOf(model));
   bool classification = task == LearnTask::kClassification;
   std::string text = "id,prediction";
@@ -87,10 +90,11 @@ Result<Digest256> WritePredictions(const std::string& path, const LoadedData& d,
     for (const std::string& c : classes) text += ",p_" + c;
   }
   text += "\n";
-  for (size_t i = 0; i < d.ids.size(); ++i) {
+  for (size_t i = 0; i < d.rows(); ++i) {
     auto r = static_cast<Eigen::Index>(i);
-    text += d.ids[i] + ",";
-    text += classification ? classes[static_cast<size_t>(p.value(r))] : fmt::format("{}", p.value(r));
+    text += d.IdOf(i) + ",";
+    text +=
+        classification ? classes[static_cast<size_t>(p.value(r))] : fmt::format("{}", p.value(r));
     if (classification && p.proba.size() > 0) {
       for (Eigen::Index c = 0; c < p.proba.cols(); ++c) text += fmt::format(",{}", p.proba(r, c));
     }
@@ -128,22 +132,26 @@ Result<PredictReport> PredictWithModel(const PredictRequest& req) {
   if (!loaded.ok()) {
     if (!loaded.status().IsRefused()) return loaded.status();
     ledger->Rollback();
-    json details = {{"data", req.data_path}, {"holdout_rows", refusal.holdout_rows},
-                    {"first_lines", refusal.first_lines}, {"model", req.model}};
-    UNSEEN_RETURN_IF_ERROR(RecordRefusal(req.ledger_path, req.actor, "predict", loaded.status(), details.dump()));
+    json details = {{"data", req.data_path},
+                    {"holdout_rows", refusal.holdout_rows},
+                    {"first_lines", refusal.first_lines},
+                    {"model", req.model}};
+    UNSEEN_RETURN_IF_ERROR(
+        RecordRefusal(req.ledger_path, req.actor, "predict", loaded.status(), details.dump()));
     return loaded.status();
   }
   UNSEEN_ASSIGN_OR_RETURN(Predictions p, ApplyFrozenModel(*ledger, model, loaded->features));
   PredictReport report;
   report.rows = loaded->ids.size();
   UNSEEN_ASSIGN_OR_RETURN(report.out_sha256, WritePredictions(req.out_path, *loaded, p, model));
-  json fields = {{"model", req.model},
-                 {"model_digest", ToHex(summary.digest)},
-                 {"data", {{"path", req.data_path}, {"sha256", ToHex(loaded->file_sha256)}}},
-                 {"rows", report.rows},
-                 {"output", {{"path", req.out_path}, {"sha256", ToHex(report.out_sha256)}}},
-                 {"parents", {summary.fit_entry}},
-                 {"summary", "applied " + req.model + " to " + std::to_string(report.rows) + " rows"}};
+  json fields = {
+      {"model", req.model},
+      {"model_digest", ToHex(summary.digest)},
+      {"data", {{"path", req.data_path}, {"sha256", ToHex(loaded->file_sha256)}}},
+      {"rows", report.rows},
+      {"output", {{"path", req.out_path}, {"sha256", ToHex(report.out_sha256)}}},
+      {"parents", {summary.fit_entry}},
+      {"summary", "applied " + req.model + " to " + std::to_string(report.rows) + " rows"}};
   UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("apply", req.actor, fields.dump()));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.head = e.hash;

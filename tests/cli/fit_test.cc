@@ -2,8 +2,8 @@
 // is refused (exit 1, a refusal entry) or impossible by construction.
 #include <gtest/gtest.h>
 
-#include <nlohmann/json.hpp>
 #include <map>
+#include <nlohmann/json.hpp>
 #include <set>
 #include <sstream>
 #include <string>
@@ -43,15 +43,17 @@ class FitTest : public ::testing::Test {
     WriteFile(dir_.File("spec.toml"), kSpec);
     ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
     ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
-                        " --target label --id id --group site --time day").exit_code, 0);
+                        " --target label --id id --group site --time day")
+                  .exit_code,
+              0);
     RunResult seal = RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
                                " --strategy group --seed 1 --dev-out " + Q("dev.csv"));
     ASSERT_EQ(seal.exit_code, 0) << seal.err;
   }
   std::string Q(const std::string& name) { return ShellQuote(dir_.File(name)); }
   RunResult Fit(const std::string& name, const std::string& extra = "") {
-    return RunUnseen("fit --json --ledger " + Q("l") + " --spec " + Q("spec.toml") + " --name " + name +
-                     " " + extra);
+    return RunUnseen("fit --json --ledger " + Q("l") + " --spec " + Q("spec.toml") + " --name " +
+                     name + " " + extra);
   }
   json History() { return json::parse(RunUnseen("history --json --ledger " + Q("l")).out); }
   // The source rows that are not in the dev file: the holdout, as a modeller
@@ -156,13 +158,14 @@ TEST_F(FitTest, HoldoutCopiedInUnderAnotherNameIsRefused) {
   WriteFile(dir_.File("innocent.csv"), HoldoutRows(/*new_ids=*/true, /*drop_target=*/false));
   RunResult r = Fit("copied", "--data " + Q("innocent.csv"));
   EXPECT_EQ(r.exit_code, 1) << r.err;
-  EXPECT_NE(r.err.find("rows match sealed holdout rows (first lines: 2, 3, 4, 5, 6)"), std::string::npos)
+  EXPECT_NE(r.err.find("rows match sealed holdout rows (first lines: 2, 3, 4, 5, 6)"),
+            std::string::npos)
       << r.err;
   // Unlabelled, the copy is still recognised by its feature digests.
   ASSERT_EQ(Fit("m").exit_code, 0);
   WriteFile(dir_.File("unlabelled.csv"), HoldoutRows(true, /*drop_target=*/true));
-  RunResult p = RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("unlabelled.csv") +
-                          " --out " + Q("p.csv"));
+  RunResult p = RunUnseen("predict --ledger " + Q("l") + " --model m --data " +
+                          Q("unlabelled.csv") + " --out " + Q("p.csv"));
   EXPECT_EQ(p.exit_code, 1) << p.err;
   EXPECT_EQ(History().back()["body"]["command"], "predict");
 }
@@ -269,6 +272,40 @@ TEST_F(FitTest, TheDevFileAndItsRowsReorderedReadTheSealsDevRows) {
   EXPECT_EQ(fits, 2);
 }
 
+TEST_F(FitTest, AFileOfTheDevFilesSizeWithAHoldoutRowInItIsRefused) {
+  // A dev row swapped for a holdout row of the same length: the file has the dev file's
+  // size, so its rows are matched only once its digest shows it is another file.
+  const std::string dev = ReadFile(dir_.File("dev.csv"));
+  std::istringstream held(HoldoutRows(false, false));
+  std::string header, line;
+  std::getline(held, header);
+  std::map<size_t, std::string> holdout_of_length;
+  while (std::getline(held, line)) holdout_of_length.emplace(line.size(), line);
+  std::istringstream in(dev);
+  std::string swapped;
+  bool done = false;
+  size_t swapped_line = 0;
+  for (size_t n = 1; std::getline(in, line); ++n) {
+    auto it = holdout_of_length.find(line.size());
+    if (!done && n > 1 && it != holdout_of_length.end()) {
+      line = it->second;
+      done = true;
+      swapped_line = n;
+    }
+    swapped += line + "\n";
+  }
+  ASSERT_TRUE(done) << "no holdout row has the length of a dev row";
+  ASSERT_EQ(swapped.size(), dev.size());
+  WriteFile(dir_.File("swapped.csv"), swapped);
+  RunResult r = Fit("swapped", "--data " + Q("swapped.csv"));
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("1 rows match sealed holdout rows (first lines: " +
+                       std::to_string(swapped_line) + ")"),
+            std::string::npos)
+      << r.err;
+  EXPECT_EQ(History().back()["kind"], "refusal");
+}
+
 TEST_F(FitTest, RowsThatAreNotDevRowsAreRefused) {
   WriteFile(dir_.File("other.csv"), testing::SampleCsv(50, 5, 77));
   RunResult r = Fit("other", "--data " + Q("other.csv"));
@@ -278,8 +315,8 @@ TEST_F(FitTest, RowsThatAreNotDevRowsAreRefused) {
 
 TEST_F(FitTest, PredictWritesIdsPredictionsAndProbabilities) {
   ASSERT_EQ(Fit("m").exit_code, 0);
-  RunResult p = RunUnseen("predict --json --ledger " + Q("l") + " --model m --data " + Q("dev.csv") +
-                          " --out " + Q("p.csv"));
+  RunResult p = RunUnseen("predict --json --ledger " + Q("l") + " --model m --data " +
+                          Q("dev.csv") + " --out " + Q("p.csv"));
   ASSERT_EQ(p.exit_code, 0) << p.err;
   std::string out = ReadFile(dir_.File("p.csv"));
   EXPECT_EQ(out.substr(0, out.find('\n')), "id,prediction,p_no,p_yes");
@@ -300,8 +337,8 @@ TEST_F(FitTest, PredictWritesIdsPredictionsAndProbabilities) {
 }
 
 TEST_F(FitTest, ExportWritesDevRowsAndGroupAwareFolds) {
-  RunResult r = RunUnseen("export --json --ledger " + Q("l") + " --out " + Q("all.csv") + " --folds 3 --out-dir " +
-                          ShellQuote(dir_.path()) + " --seed 5");
+  RunResult r = RunUnseen("export --json --ledger " + Q("l") + " --out " + Q("all.csv") +
+                          " --folds 3 --out-dir " + ShellQuote(dir_.path()) + " --seed 5");
   ASSERT_EQ(r.exit_code, 0) << r.err;
   // The source has an id column, so the export is exactly the dev file.
   EXPECT_EQ(ReadFile(dir_.File("all.csv")), ReadFile(dir_.File("dev.csv")));
@@ -331,14 +368,18 @@ TEST_F(FitTest, ExportWritesDevRowsAndGroupAwareFolds) {
 
 TEST_F(FitTest, ScoreRatesExportedRowsAndRefusesOthers) {
   ASSERT_EQ(Fit("m").exit_code, 0);
-  ASSERT_EQ(RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("dev.csv") + " --out " +
-                      Q("p.csv")).exit_code, 0);
+  ASSERT_EQ(RunUnseen("predict --ledger " + Q("l") + " --model m --data " + Q("dev.csv") +
+                      " --out " + Q("p.csv"))
+                .exit_code,
+            0);
   // Nothing exported yet: refused.
-  RunResult early = RunUnseen("score --ledger " + Q("l") + " --predictions " + Q("p.csv") + " --on outside");
+  RunResult early =
+      RunUnseen("score --ledger " + Q("l") + " --predictions " + Q("p.csv") + " --on outside");
   EXPECT_EQ(early.exit_code, 1) << early.err;
   EXPECT_NE(early.err.find("was never exported"), std::string::npos) << early.err;
   ASSERT_EQ(RunUnseen("export --ledger " + Q("l") + " --out " + Q("all.csv")).exit_code, 0);
-  RunResult ok = RunUnseen("score --json --ledger " + Q("l") + " --predictions " + Q("p.csv") + " --on outside");
+  RunResult ok = RunUnseen("score --json --ledger " + Q("l") + " --predictions " + Q("p.csv") +
+                           " --on outside");
   ASSERT_EQ(ok.exit_code, 0) << ok.err;
   json j = json::parse(ok.out);
   EXPECT_EQ(j["metric"], "error_rate");
@@ -347,7 +388,8 @@ TEST_F(FitTest, ScoreRatesExportedRowsAndRefusesOthers) {
   std::istringstream dev(ReadFile(dir_.File("dev.csv")));
   std::string line;
   std::getline(dev, line);
-  while (std::getline(dev, line)) truth[line.substr(0, line.find(','))] = line.substr(line.rfind(',') + 1);
+  while (std::getline(dev, line))
+    truth[line.substr(0, line.find(','))] = line.substr(line.rfind(',') + 1);
   std::istringstream pred(ReadFile(dir_.File("p.csv")));
   std::getline(pred, line);
   double wrong = 0, n = 0;
@@ -367,7 +409,8 @@ TEST_F(FitTest, ScoreRatesExportedRowsAndRefusesOthers) {
   std::string preds = "id,prediction\n";
   while (std::getline(hin, line)) preds += line.substr(0, line.find(',')) + ",yes\n";
   WriteFile(dir_.File("hp.csv"), preds);
-  RunResult bad = RunUnseen("score --ledger " + Q("l") + " --predictions " + Q("hp.csv") + " --on outside");
+  RunResult bad =
+      RunUnseen("score --ledger " + Q("l") + " --predictions " + Q("hp.csv") + " --on outside");
   EXPECT_EQ(bad.exit_code, 1) << bad.err;
   EXPECT_NE(bad.err.find("sealed holdout rows"), std::string::npos) << bad.err;
   EXPECT_EQ(History().back()["kind"], "refusal");
@@ -380,7 +423,8 @@ TEST_F(FitTest, BadSpecsAreExitTwoWithTheSpecLine) {
   for (const Case& c : {Case{"[learner]\nkind = \"forest\"\n", ":2:"},
                         Case{"[learner]\nkind = \"ridge\"\nl2 = \"high\"\n", ":3:"},
                         Case{"[[transform]]\nkind = \"standardize\"\ncolumns = [\"nowhere\"]\n"
-                             "[learner]\nkind = \"logistic\"\n", ":3:"}}) {
+                             "[learner]\nkind = \"logistic\"\n",
+                             ":3:"}}) {
     WriteFile(dir_.File("bad.toml"), c.text);
     RunResult r = RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("bad.toml") + " --name x");
     EXPECT_EQ(r.exit_code, 2) << c.text << r.err;

@@ -358,7 +358,7 @@ INSTANTIATE_TEST_SUITE_P(
                "--task regression", "4:3", "regression task expects numbers"},
         BadCsv{"MissingTarget", "a,label\n1,x\n2,\n3,y\n", "", "3:3", "missing target"},
         BadCsv{"DuplicateId", "id,label\nr1,x\nr2,y\nr1,x\n", "--id id", "4:1", "duplicate id 'r1'"}),
-    [](const ::testing::TestParamInfo<BadCsv>& info) { return std::string(info.param.name); });
+    [](const ::testing::TestParamInfo<BadCsv>& p) { return std::string(p.param.name); });
 
 TEST_F(WorkflowTest, DelimiterOptionReadsOtherSeparators) {
   WriteFile(dir_.File("semi.csv"), "a;b;label\n1;2;x\n3;4;y\n5;6;x\n");

@@ -210,6 +210,35 @@ TEST_F(CsvTest, HeaderOnlyFileHasNoRecords) {
   EXPECT_TRUE(Parse("a,b\r\n").rows.empty());
 }
 
+TEST_F(CsvTest, EstimateRecordsCountsTheLinesOfASmallFile) {
+  const auto estimate = [this](const std::string& content) {
+    auto csv = Open(content);
+    EXPECT_OK(csv.status());
+    return csv.ok() ? (*csv)->EstimateRecords() : 0;
+  };
+  EXPECT_EQ(estimate("a,b"), 0u);
+  EXPECT_EQ(estimate("a,b\n"), 0u);
+  EXPECT_EQ(estimate("a,b\n1,2\n3,4\n"), 2u);
+  EXPECT_EQ(estimate("a,b\r\n1,2\r\n3,4"), 2u);  // no final line end
+  EXPECT_EQ(estimate("\xEF\xBB\xBF"
+                     "a,b\n1,2\n"),
+            1u);
+}
+
+TEST_F(CsvTest, EstimateRecordsScalesItsSampleToALargeFile) {
+  // 300,000 records of 10 to 19 bytes: about 4 MiB, of which the estimate reads one.
+  std::string content = "id,value\n";
+  for (int i = 0; i < 300000; ++i) {
+    content +=
+        std::to_string(i % 1000) + "," + std::string(static_cast<size_t>(i % 10), 'x') + "123456\n";
+  }
+  auto csv = Open(content);
+  ASSERT_OK(csv.status());
+  const double estimate = static_cast<double>((*csv)->EstimateRecords());
+  EXPECT_GT(estimate, 0.97 * 300000);
+  EXPECT_LT(estimate, 1.03 * 300000);
+}
+
 TEST_F(CsvTest, ValidUtf8EdgesAreAccepted) {
   // U+0080, U+07FF, U+0800, U+FFFF, U+10000, U+10FFFF: the smallest and largest of each length
   // (RFC 3629 section 4 grammar).

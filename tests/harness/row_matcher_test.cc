@@ -2,6 +2,7 @@
 
 #include <gtest/gtest.h>
 
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -171,6 +172,81 @@ TEST(RowMatcherTest, QuotedCellsAndOtherColumnOrdersAreMatchedByTheirValues) {
   EXPECT_EQ(r.dev_rows, (std::vector<uint32_t>{0, 1}));
   EXPECT_EQ(r.holdout_rows, 1u);
   EXPECT_EQ(r.first_lines, (std::vector<uint64_t>{4}));
+}
+
+// n source rows (row i is "r<i>,v<i>,<i%2>"), as cells and as a file's records.
+struct Numbered {
+  explicit Numbered(size_t n) {
+    for (size_t i = 0; i < n; ++i) {
+      ids.push_back("r" + std::to_string(i));
+      values.push_back("v" + std::to_string(i));
+      records.push_back(ids[i] + "," + values[i] + "," + (i % 2 ? "1" : "0"));
+    }
+    for (size_t i = 0; i < n; ++i) rows.push_back(Row{ids[i], values[i], i % 2 ? "1" : "0"});
+  }
+  // The tables of a holdout of `held` (ascending).
+  std::function<Result<MatchTables>()> Tables(std::vector<uint32_t> held) const {
+    return [this, held]() -> Result<MatchTables> {
+      std::vector<Row> h;
+      for (uint32_t i : held) h.push_back(rows[i]);
+      return MatchTables{Digests(rows, {kId}), Digests(h, {kId, kTarget}),
+                         RowSet::FromSorted(held)};
+    };
+  }
+  std::vector<std::string> ids, values, records;
+  std::vector<Row> rows;
+};
+
+// Hands `records` over as single-row batches, which would fill the queue of a matcher that
+// is not matching after three.
+void AddOneRowBatches(RowMatcher* m, const std::vector<std::string>& records) {
+  for (size_t i = 0; i < records.size(); ++i) {
+    std::unique_ptr<MatchBatch> b = m->NewBatch();
+    b->AddRow(records[i], i + 2);
+    m->Add(std::move(b));
+  }
+}
+
+TEST(RowMatcherTest, AHeldMatcherTakesEveryBatchAndMatchesThemOnceReleased) {
+  const Numbered src(20);
+  RowMatcher m(src.Tables({4, 9}), Identity(), kTarget, kId, true, true);
+  m.Hold();
+  AddOneRowBatches(&m, src.records);  // 20 batches outstanding: none blocks
+  m.Release();
+  const MatchResult r = m.Finish();
+  ASSERT_OK(r.status);
+  std::vector<uint32_t> want;
+  for (uint32_t i = 0; i < 20; ++i) {
+    if (i != 4 && i != 9) want.push_back(i);
+  }
+  EXPECT_EQ(r.dev_rows, want);
+  EXPECT_EQ(r.holdout_rows, 2u);
+  EXPECT_EQ(r.first_lines, (std::vector<uint64_t>{6, 11}));
+}
+
+TEST(RowMatcherTest, AHeldMatcherThatIsStoppedMatchesNothing) {
+  const Numbered src(10);
+  RowMatcher m(src.Tables({3}), Identity(), kTarget, kId, true, true);
+  m.Hold();
+  AddOneRowBatches(&m, src.records);
+  m.Stop();
+  // After the hold, the queue is bounded again: further batches come back unmatched.
+  AddOneRowBatches(&m, src.records);
+  const MatchResult r = m.Finish();
+  ASSERT_OK(r.status);
+  EXPECT_TRUE(r.dev_rows.empty());
+  EXPECT_EQ(r.holdout_rows, 0u);
+}
+
+TEST(RowMatcherTest, FinishMatchesWhatAHeldMatcherWasGiven) {
+  const Numbered src(8);
+  RowMatcher m(src.Tables({7}), Identity(), kTarget, kId, true, true);
+  m.Hold();
+  AddOneRowBatches(&m, src.records);
+  const MatchResult r = m.Finish();
+  ASSERT_OK(r.status);
+  EXPECT_EQ(r.dev_rows, (std::vector<uint32_t>{0, 1, 2, 3, 4, 5, 6}));
+  EXPECT_EQ(r.holdout_rows, 1u);
 }
 
 TEST(RowMatcherTest, TablesThatCannotBeLoadedFailTheMatchAndMatchNothing) {
