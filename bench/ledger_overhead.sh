@@ -8,9 +8,11 @@
 #   - the same fit without the ledger (bench/ledger_overhead_bench.cc): the same CSV reader and
 #     number parser into the same frame, the same pipeline fit and serialisation;
 # for standardize + logistic (a 0/1 label) and standardize + linear (a numeric target), and
-# prints the overhead (ours - reference) / reference, of the best runs and of the medians. Goal:
-# at most 5%. Timings on a shared or virtual machine vary by tens of percent from run to run:
-# run it on an idle machine, with REPEATS of 15 or more.
+# prints the overhead (ours - reference) / reference: of the best runs, of the medians, and the
+# median of the overheads of each pair of runs (ours, then the reference right after it; a pair
+# shares the machine's state, so this one moves least when the host's speed drifts). Goal: at
+# most 5%. Timings on a shared or virtual machine vary by tens of percent from run to run: run
+# it on an idle machine, with REPEATS of 15 or more.
 #   bash bench/ledger_overhead.sh [ROWS] [FEATURES]     (environment: REPEATS, default 15)
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -35,9 +37,19 @@ best_of() {  # best_of SECONDS...
 median_of() {  # median_of SECONDS...
   printf "%s\n" "$@" | sort -g | awk '{ v[NR] = $1 } END { print (NR % 2) ? v[(NR + 1) / 2] : (v[NR / 2] + v[NR / 2 + 1]) / 2 }'
 }
+paired_of() {  # paired_of N OURS... REF...: the median of (ours_i - ref_i) / ref_i, in percent
+  local n=$1; shift
+  local -a o=("${@:1:n}") r=("${@:n+1:n}") p=()
+  for ((k = 0; k < n; k++)); do
+    p+=("$(awk -v u="${o[k]}" -v v="${r[k]}" 'BEGIN { printf "%.4f", 100 * (u - v) / v }')")
+  done
+  median_of "${p[@]}"
+}
 
-printf "%-9s %-15s %8s %16s %16s %9s %9s\n" "learner" "task" "dev rows" "unseen fit (s)" "no ledger (s)" "best" "median"
-printf "%-9s %-15s %8s %16s %16s %9s %9s\n" "" "" "" "best / median" "best / median" "overhead" "overhead"
+printf "%-9s %-15s %8s %16s %16s %9s %9s %9s\n" "learner" "task" "dev rows" "unseen fit (s)" \
+  "no ledger (s)" "best" "median" "paired"
+printf "%-9s %-15s %8s %16s %16s %9s %9s %9s\n" "" "" "" "best / median" "best / median" \
+  "overhead" "overhead" "median"
 for case in "logistic classification" "linear regression"; do
   read -r learner task <<< "$case"
   dir="$work/$task"
@@ -58,9 +70,10 @@ for case in "logistic classification" "linear regression"; do
   done
   u=$(best_of "${ours[@]}") um=$(median_of "${ours[@]}")
   r=$(best_of "${ref[@]}") rm=$(median_of "${ref[@]}")
+  pm=$(paired_of "$repeats" "${ours[@]}" "${ref[@]}")
   awk -v l="$learner" -v t="$task" -v n="$(($(wc -l < "$dir/dev.csv") - 1))" -v u="$u" -v r="$r" \
-    -v um="$um" -v rm="$rm" 'BEGIN {
-      printf "%-9s %-15s %8d %7.4f / %6.4f %7.4f / %6.4f %8.1f%% %8.1f%%\n", l, t, n, u, um, r, rm,
-             100 * (u - r) / r, 100 * (um - rm) / rm }'
+    -v um="$um" -v rm="$rm" -v pm="$pm" 'BEGIN {
+      printf "%-9s %-15s %8d %7.4f / %6.4f %7.4f / %6.4f %8.1f%% %8.1f%% %8.1f%%\n", l, t, n, u, um,
+             r, rm, 100 * (u - r) / r, 100 * (um - rm) / rm, pm }'
 done
 echo "goal: overhead at most 5% of fit time; load average at the end: $(cut -d' ' -f1-3 /proc/loadavg)"

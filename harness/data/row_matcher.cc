@@ -20,13 +20,14 @@ RowMatcher::RowMatcher(MatchTables tables, MatchLayout layout, size_t target,
                  std::move(layout), target, id, by_content, dev_required) {}
 
 RowMatcher::RowMatcher(std::function<Result<MatchTables>()> load, MatchLayout layout, size_t target,
-                       std::optional<size_t> id, bool by_content, bool dev_required)
+                       std::optional<size_t> id, bool by_content, bool dev_required, bool held)
     : load_(std::move(load)),
       layout_(std::move(layout)),
       target_(target),
       id_(id),
       by_content_(by_content),
       dev_required_(dev_required),
+      held_(held),
       worker_([this] { Work(); }) {}
 
 RowMatcher::~RowMatcher() {
@@ -56,11 +57,6 @@ void RowMatcher::Add(std::unique_ptr<MatchBatch> batch) {
   cv_.notify_all();
 }
 
-void RowMatcher::Hold() {
-  std::lock_guard<std::mutex> lock(mu_);
-  held_ = true;
-}
-
 void RowMatcher::Release() {
   {
     std::lock_guard<std::mutex> lock(mu_);
@@ -85,13 +81,21 @@ MatchResult RowMatcher::Finish() {
 }
 
 void RowMatcher::Work() {
-  Result<MatchTables> loaded = load_();
-  if (loaded.ok()) {
-    tables_ = std::move(*loaded);
-  } else {
-    result_.status = loaded.status();
+  {
+    std::unique_lock<std::mutex> lock(mu_);
+    cv_.wait(lock, [this] { return !held_ || stopping_; });
   }
-  if (result_.status.ok()) {
+  // Stopped while held: the tables are never needed.
+  const bool needed = !stopped_.load(std::memory_order_relaxed);
+  if (needed) {
+    Result<MatchTables> loaded = load_();
+    if (loaded.ok()) {
+      tables_ = std::move(*loaded);
+    } else {
+      result_.status = loaded.status();
+    }
+  }
+  if (needed && result_.status.ok()) {
     if (by_content_) used_.assign(tables_.content_digests.size() / sizeof(RowDigest), false);
     content_.emplace(tables_.content_digests);
     holdout_features_.emplace(tables_.holdout_feature_digests);

@@ -100,8 +100,16 @@ class RowMatcher {
   // The same, with the tables loaded by `load` on the matcher's thread, so that reading them
   // overlaps the caller's reading too. When `load` fails, batches are taken and not matched,
   // and Finish() returns its status. `load` must not touch what the caller uses meanwhile.
+  //
+  // With `held`, the matcher starts held, for a caller that may yet learn the answer another
+  // way (and Stop()): until Release(), Stop() or Finish(), the thread neither loads the tables
+  // nor matches, and NewBatch() never blocks, so batches queue up without bound. Meant for a
+  // short wait, such as a file digest that runs several times faster than the reader: the
+  // matcher then takes no CPU from the reader, and after Stop() it never loads the tables at
+  // all. After Release() it loads them and catches up on the queued batches; views into pages
+  // the CsvFile has released by then are read in again.
   RowMatcher(std::function<Result<MatchTables>()> load, MatchLayout layout, size_t target,
-             std::optional<size_t> id, bool by_content, bool dev_required);
+             std::optional<size_t> id, bool by_content, bool dev_required, bool held = false);
   ~RowMatcher();  // Finish()es if needed
   RowMatcher(const RowMatcher&) = delete;
   RowMatcher& operator=(const RowMatcher&) = delete;
@@ -110,14 +118,7 @@ class RowMatcher {
   // held.
   std::unique_ptr<MatchBatch> NewBatch();
   void Add(std::unique_ptr<MatchBatch> batch);
-  // Holds back matching while the caller may yet learn the answer another way (and Stop()):
-  // the thread loads its tables and matches nothing until Release() or Stop(), and
-  // NewBatch() never blocks meanwhile, so batches queue up without bound. Meant for a short
-  // wait, such as a file digest that runs several times faster than the reader: the matcher
-  // then takes no CPU from the reader, and Release() leaves it the queued batches to catch up
-  // on. Views into pages the CsvFile has released by then are read in again. Call Hold()
-  // before the first Add(). Thread-safe.
-  void Hold();
+  // Ends a hold (see the constructor). Thread-safe.
   void Release();
   // Tells the thread to match no further batches: the caller knows the answer another way.
   // Thread-safe; the result Finish() returns is then partial and must not be used.
@@ -156,7 +157,7 @@ class RowMatcher {
   std::vector<std::unique_ptr<MatchBatch>> free_;  // matched, for NewBatch()
   size_t outstanding_ = 0;  // handed out by NewBatch() and not yet returned to free_
   bool stopping_ = false;
-  bool held_ = false;  // Hold() and no Release() or Stop() since
+  bool held_;  // started held, and no Release() or Stop() since
   std::atomic<bool> stopped_{false};
   std::thread worker_;  // last: starts after every member above exists
 };

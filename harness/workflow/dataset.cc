@@ -185,17 +185,18 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   // This thread reads the rows and their values; the matcher hashes and looks them up on
   // another. A holdout row is refused even when the file has other errors, so after the first
   // bad value the rows are still read and matched, and their values no longer kept.
-  RowMatcher matcher(load_tables, MatchLayout{src.delimiter, layout.file_of_source}, target_col,
-                     id_col, full_row && labelled, purpose == DataPurpose::kDevRows);
-  // The file's SHA-256 runs on another thread, over the same mapping the rows are read from, so
+  //
+  // The file's SHA-256 runs on a third thread, over the same mapping the rows are read from, so
   // the digest recorded is that of the bytes used. When it is the digest of the dev file seal
   // wrote, the file is that file: its rows are the development rows in source order, which is
   // what matching them would find, so the matcher stops. Until a file of the dev file's size
-  // is known to be another, the matcher is held, so that on two cores the reader and the
-  // digest each have one to themselves.
+  // is known to be another, the matcher is held (it loads nothing and matches nothing), so
+  // that on two cores the reader and the digest each have one to themselves.
   const CsvFile& file = *csv;
   const SealInfo& seal = *st.seal;
-  if (file.size() == seal.dev_out_size) matcher.Hold();
+  RowMatcher matcher(load_tables, MatchLayout{src.delimiter, layout.file_of_source}, target_col,
+                     id_col, full_row && labelled, purpose == DataPurpose::kDevRows,
+                     /*held=*/file.size() == seal.dev_out_size);
   std::atomic<bool> is_dev_file{false};
   std::future<Result<FileDigest>> file_digest =
       std::async(std::launch::async, [&file, &seal, &matcher, &is_dev_file] {
@@ -248,10 +249,11 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   UNSEEN_RETURN_IF_ERROR(matched.status);
   UNSEEN_RETURN_IF_ERROR(s);
   if (!fd.ok()) return fd.status();
+  std::optional<RowSet> dev_set;  // the seal's, when the file is the dev file
   if (is_dev_file.load()) {
     UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger.GetBlob(seal.dev_set));
-    UNSEEN_ASSIGN_OR_RETURN(RowSet dev, RowSet::Deserialize(dev_bytes));
-    matched.dev_rows = dev.ToVector();
+    UNSEEN_ASSIGN_OR_RETURN(dev_set, RowSet::Deserialize(dev_bytes));
+    matched.dev_rows = dev_set->ToVector();
     matched.holdout_rows = matched.other_rows = 0;
     matched.first_lines.clear();
     if (matched.dev_rows.size() != out.lines.size() && bad_value.ok()) {
@@ -280,9 +282,14 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   UNSEEN_RETURN_IF_ERROR(bad_value);
   if (out.lines.empty()) return Status::InvalidArgument(path + ": no data rows");
   out.target = Eigen::Map<Eigen::VectorXd>(target.data(), static_cast<Eigen::Index>(target.size()));
-  out.source_rows = dev_rows;
-  std::sort(dev_rows.begin(), dev_rows.end());
-  out.rows_read = RowSet::FromSorted(dev_rows);
+  if (dev_set) {
+    out.rows_read = std::move(*dev_set);
+    out.source_rows = std::move(dev_rows);
+  } else {
+    out.source_rows = dev_rows;
+    std::sort(dev_rows.begin(), dev_rows.end());
+    out.rows_read = RowSet::FromSorted(dev_rows);
+  }
   out.file_sha256 = fd->sha256;
   return out;
 }

@@ -209,8 +209,7 @@ void AddOneRowBatches(RowMatcher* m, const std::vector<std::string>& records) {
 
 TEST(RowMatcherTest, AHeldMatcherTakesEveryBatchAndMatchesThemOnceReleased) {
   const Numbered src(20);
-  RowMatcher m(src.Tables({4, 9}), Identity(), kTarget, kId, true, true);
-  m.Hold();
+  RowMatcher m(src.Tables({4, 9}), Identity(), kTarget, kId, true, true, /*held=*/true);
   AddOneRowBatches(&m, src.records);  // 20 batches outstanding: none blocks
   m.Release();
   const MatchResult r = m.Finish();
@@ -224,10 +223,14 @@ TEST(RowMatcherTest, AHeldMatcherTakesEveryBatchAndMatchesThemOnceReleased) {
   EXPECT_EQ(r.first_lines, (std::vector<uint64_t>{6, 11}));
 }
 
-TEST(RowMatcherTest, AHeldMatcherThatIsStoppedMatchesNothing) {
+TEST(RowMatcherTest, AHeldMatcherThatIsStoppedMatchesNothingAndLoadsNothing) {
   const Numbered src(10);
-  RowMatcher m(src.Tables({3}), Identity(), kTarget, kId, true, true);
-  m.Hold();
+  bool loaded = false;
+  auto tables = [&]() {
+    loaded = true;
+    return src.Tables({3})();
+  };
+  RowMatcher m(tables, Identity(), kTarget, kId, true, true, /*held=*/true);
   AddOneRowBatches(&m, src.records);
   m.Stop();
   // After the hold, the queue is bounded again: further batches come back unmatched.
@@ -236,12 +239,12 @@ TEST(RowMatcherTest, AHeldMatcherThatIsStoppedMatchesNothing) {
   ASSERT_OK(r.status);
   EXPECT_TRUE(r.dev_rows.empty());
   EXPECT_EQ(r.holdout_rows, 0u);
+  EXPECT_FALSE(loaded);
 }
 
 TEST(RowMatcherTest, FinishMatchesWhatAHeldMatcherWasGiven) {
   const Numbered src(8);
-  RowMatcher m(src.Tables({7}), Identity(), kTarget, kId, true, true);
-  m.Hold();
+  RowMatcher m(src.Tables({7}), Identity(), kTarget, kId, true, true, /*held=*/true);
   AddOneRowBatches(&m, src.records);
   const MatchResult r = m.Finish();
   ASSERT_OK(r.status);
