@@ -50,11 +50,13 @@ std::unique_ptr<MatchBatch> RowMatcher::NewBatch() {
 }
 
 void RowMatcher::Add(std::unique_ptr<MatchBatch> batch) {
+  bool wake = false;
   {
     std::lock_guard<std::mutex> lock(mu_);
     queue_.push_back(std::move(batch));
+    wake = !held_;  // a held thread waits for Release(), Stop() or Finish(), which wake it
   }
-  cv_.notify_all();
+  if (wake) cv_.notify_all();
 }
 
 void RowMatcher::Release() {

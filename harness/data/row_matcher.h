@@ -123,6 +123,9 @@ class RowMatcher {
   // Tells the thread to match no further batches: the caller knows the answer another way.
   // Thread-safe; the result Finish() returns is then partial and must not be used.
   void Stop();
+  // Whether Stop() has been called: batches added since are not matched, so the caller may
+  // stop filling them. Thread-safe.
+  bool stopped() const { return stopped_.load(std::memory_order_relaxed); }
   // Waits until every batch added is matched, stops the thread and returns the result.
   // Call once.
   MatchResult Finish();

@@ -224,7 +224,10 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
       }
     }
     const std::vector<std::string_view>& row = same_order ? *r.fields : canon;
-    batch->AddRow(r.raw, r.line);  // the matcher splits and classifies it on its thread
+    // The matcher splits and classifies the record on its thread; once it has stopped (the
+    // file is the dev file), nothing more is handed to it.
+    const bool matching = !matcher.stopped();
+    if (matching) batch->AddRow(r.raw, r.line);
     if (bad_value.ok()) {
       bad_value = AppendValues(row, feature_cols, &classes, src.task,
                                labelled ? std::optional<size_t>(target_col) : std::nullopt,
@@ -237,7 +240,7 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
         bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
       }
     }
-    if (batch->full()) {
+    if (matching && batch->full()) {
       matcher.Add(std::move(batch));
       batch = matcher.NewBatch();
     }

@@ -35,10 +35,13 @@ struct LeastSquaresFit {
   Eigen::Index rank = 0;
 };
 
-// Replaces *r (k x q upper triangular, k <= q) by the R factor of [*r; block].
-void AbsorbBlock(const Eigen::MatrixXd& block, Eigen::MatrixXd* r) {
+// Replaces *r (k x q upper triangular, k <= q) by the R factor of [*r; block]. *stacked is
+// workspace, kept between calls: blocks of one size reuse it rather than allocate and free a
+// few hundred KiB each (same shape, same arithmetic).
+void AbsorbBlock(const Eigen::MatrixXd& block, Eigen::MatrixXd* r, Eigen::MatrixXd* stacked_ws) {
   const Eigen::Index q = block.cols();
-  Eigen::MatrixXd stacked(r->rows() + block.rows(), q);
+  Eigen::MatrixXd& stacked = *stacked_ws;
+  stacked.resize(r->rows() + block.rows(), q);  // no allocation when the size is unchanged
   stacked << *r, block;
   Eigen::HouseholderQR<Eigen::Ref<Eigen::MatrixXd>> qr(stacked);
   const Eigen::Index k = std::min(stacked.rows(), q);
@@ -60,18 +63,18 @@ LeastSquaresFit SolveLeastSquares(const Eigen::MatrixXd& X, const Eigen::VectorX
   // Stage 1: R of [Xc | yc] (| penalty rows), block by block.
   Eigen::MatrixXd r(0, p + 1);
   const Eigen::Index step = BlockRows(p + 1);
-  Eigen::MatrixXd block;
+  Eigen::MatrixXd block, stacked;
   for (Eigen::Index start = 0; start < n; start += step) {
     const Eigen::Index rows = std::min(step, n - start);
     block.resize(rows, p + 1);
     block.leftCols(p) = X.middleRows(start, rows).rowwise() - x_mean;
     block.col(p) = y.segment(start, rows).array() - y_mean;
-    AbsorbBlock(block, &r);
+    AbsorbBlock(block, &r, &stacked);
   }
   if (l2 > 0) {
     block = Eigen::MatrixXd::Zero(p, p + 1);
     block.leftCols(p).diagonal().setConstant(std::sqrt(l2));
-    AbsorbBlock(block, &r);
+    AbsorbBlock(block, &r, &stacked);
   }
   // Stage 2: rank-revealing solve of R11 b = z in unit-norm columns.
   Eigen::MatrixXd r11 = Eigen::MatrixXd::Zero(p, p);
