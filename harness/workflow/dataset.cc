@@ -309,7 +309,7 @@ LoadedData SelectRows(const LoadedData& d, const std::vector<size_t>& rows) {
     size_t r = rows[i];
     if (d.labelled)
       out.target(static_cast<Eigen::Index>(i)) = d.target(static_cast<Eigen::Index>(r));
-    out.ids.push_back(d.IdOf(r));  // a row number is the row's in `d`, so it is kept as text
+    out.ids.push_back(d.IdOf(r));  // a row number of `d` would change here: kept as text
     if (!d.groups.empty()) out.groups.push_back(d.groups[r]);
     out.source_rows.push_back(d.source_rows[r]);
     out.lines.push_back(d.lines[r]);
