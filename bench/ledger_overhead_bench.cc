@@ -64,8 +64,9 @@ unseen::Status ReadFrame(const std::string& path, unseen::Frame* frame, Eigen::V
   if (target == header.size()) return unseen::Status::InvalidArgument(path + ": no column y");
   std::vector<double> labels;
   // Room for the rows, as the tool's own loader (harness/workflow/dataset.cc) makes it.
-  frame->Reserve(csv->EstimateRecords());
-  labels.reserve(csv->EstimateRecords());
+  const size_t expected_rows = csv->EstimateRecords();
+  frame->Reserve(expected_rows);
+  labels.reserve(expected_rows);
   UNSEEN_RETURN_IF_ERROR(csv->ForEachRecord([&](const unseen::CsvRecord& r) -> unseen::Status {
     size_t k = 0;
     for (size_t c = 0; c < r.fields->size(); ++c) {

@@ -617,22 +617,23 @@ std::string_view CsvFile::header_raw() const {
   return {data_ + bom_, static_cast<size_t>(header_end_ - bom_)};
 }
 
-Status CsvFile::RecordPass(const std::function<Status(uint64_t* released)>& body) const {
+Status CsvFile::GuardedPass(const char* what,
+                            const std::function<Status(uint64_t* released)>& body) const {
   uint64_t released = 0;
   Status status;
   try {
     status = body(&released);
   } catch (const std::exception& e) {
-    status = Status::Internal(path_ + ": while reading records: " + e.what());
+    status = Status::Internal(path_ + ": while reading " + what + ": " + e.what());
   } catch (...) {
-    status = Status::Internal(path_ + ": while reading records: an unknown exception");
+    status = Status::Internal(path_ + ": while reading " + what + ": an unknown exception");
   }
   Release(size_, &released);
   return status;
 }
 
 Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn) const {
-  return RecordPass([&](uint64_t* released_at) -> Status {
+  return GuardedPass("records", [&](uint64_t* released_at) -> Status {
     uint64_t& released = *released_at;
     const size_t columns = header_.size();
     RecordParser parser(path_, data_, size_, options_.delimiter, columns);
@@ -663,7 +664,7 @@ Status CsvFile::ForEachRecord(const std::function<Status(const CsvRecord&)>& fn)
 
 Status CsvFile::ForEachRecordParsing(const std::vector<uint32_t>& parse,
                                      const std::function<Status(const CsvRecord&)>& fn) const {
-  return RecordPass([&](uint64_t* released_at) -> Status {
+  return GuardedPass("records", [&](uint64_t* released_at) -> Status {
     uint64_t& released = *released_at;
     const size_t columns = header_.size();
     RecordParser parser(path_, data_, size_, options_.delimiter, columns);
@@ -722,22 +723,16 @@ Status CsvFile::ForEachRecordParsing(const std::vector<uint32_t>& parse,
 Status CsvFile::ForEachChunk(size_t chunk_bytes,
                              const std::function<Status(std::string_view)>& fn) const {
   if (chunk_bytes == 0) chunk_bytes = size_t{1} << 20;
-  uint64_t released = 0;
-  Status status;
-  try {
+  return GuardedPass("chunks", [&](uint64_t* released) -> Status {
+    Status status;
     for (uint64_t pos = 0; pos < size_ && status.ok();) {
       const uint64_t n = std::min<uint64_t>(chunk_bytes, size_ - pos);
       status = fn(std::string_view(data_ + pos, static_cast<size_t>(n)));
       pos += n;
-      if (pos - released >= kReleaseBytes) Release(pos, &released);
+      if (pos - *released >= kReleaseBytes) Release(pos, released);
     }
-  } catch (const std::exception& e) {
-    status = Status::Internal(path_ + ": while reading chunks: " + e.what());
-  } catch (...) {
-    status = Status::Internal(path_ + ": while reading chunks: an unknown exception");
-  }
-  Release(size_, &released);
-  return status;
+    return status;
+  });
 }
 
 Result<FileDigest> CsvFile::Sha256() const {

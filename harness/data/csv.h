@@ -144,9 +144,10 @@ class CsvFile {
   CsvFile() = default;
   // Parses the header of data_; sets bom_, header_, header_end_, body_begin_, body_line_.
   Status ReadHeader();
-  // Runs one pass over the records: returns body's status, or Internal for an exception it
-  // throws; afterwards returns every page to the kernel. `body` tracks *released as Release() does.
-  Status RecordPass(const std::function<Status(uint64_t* released)>& body) const;
+  // Runs one pass over the mapping: returns body's status, or Internal "PATH: while reading
+  // WHAT: ..." for an exception it throws; afterwards returns every page to the kernel. `body`
+  // tracks *released as Release() does.
+  Status GuardedPass(const char* what, const std::function<Status(uint64_t* released)>& body) const;
   // Returns the pages of the mapping below `upto` to the kernel (no-op for FromBytes data).
   void Release(uint64_t upto, uint64_t* released) const;
   // Line number and line-start offset for `offset`, counting from a cached earlier position.
