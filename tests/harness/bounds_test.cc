@@ -16,7 +16,8 @@
 namespace unseen {
 namespace {
 
-// REFERENCES.md prints 10 decimals; half a unit in the last place plus slack.
+// The check values below are printed with 10 decimals (docs/references.md); half a unit in the
+// last place plus slack.
 constexpr double kTenDecimals = 1e-10;
 // The tolerance the brief sets for Clopper–Pearson against scipy and R.
 constexpr double kCpTolerance = 1e-9;
@@ -66,7 +67,7 @@ struct HoeffdingRow {
   uint64_t n;
   double m, delta, two_sided, one_sided;
 };
-// REFERENCES.md section 1 table (computed there with Python math, closed form).
+// Computed with Python math from the closed form (docs/references.md, Hoeffding).
 const HoeffdingRow kHoeffdingRows[] = {
     {1000, 1, 0.05, 0.0429469408, 0.0387022756},     {1000, 100, 0.05, 0.0643973976, 0.0616477999},
     {10000, 1000, 0.05, 0.0230180741, 0.0222525140}, {100, 1, 0.05, 0.1358101516, 0.1223873415},
@@ -92,7 +93,7 @@ TEST(HoeffdingBoundTest, OneSidedHelperMatchesReferenceTable) {
   for (const HoeffdingRow& row : kHoeffdingRows) {
     Result<double> eps = OneSidedHoeffdingEpsilon(row.n, 1.0, row.delta, std::log(row.m));
     ASSERT_OK(eps);
-    EXPECT_NEAR(*eps, row.one_sided, kTenDecimals);  // REFERENCES.md section 1, one-sided column
+    EXPECT_NEAR(*eps, row.one_sided, kTenDecimals);  // docs/references.md, Hoeffding: one-sided
   }
 }
 
@@ -102,7 +103,8 @@ TEST(HoeffdingBoundTest, RangeScalesTheHalfWidth) {
   r.range_hi = 1;
   Result<Bound> b = ComputeBound(r);
   ASSERT_OK(b);
-  // REFERENCES.md section 1: N=1000, M=100 gives 0.0643973976 on [0,1]; [a,b] multiplies by b-a.
+  // docs/references.md, Hoeffding: N=1000, M=100 gives 0.0643973976 on [0,1]; [a,b] multiplies
+  // by b-a.
   EXPECT_NEAR(b->half_width_raw, 2 * 0.0643973976, 2 * kTenDecimals);
   EXPECT_NE(b->assumptions.find("[-1, 1]"), std::string::npos) << b->assumptions;
 }
@@ -110,7 +112,7 @@ TEST(HoeffdingBoundTest, RangeScalesTheHalfWidth) {
 TEST(HoeffdingBoundTest, ClipsToTheRangeButKeepsTheRawHalfWidth) {
   Result<Bound> b = ComputeBound(Request(BoundMethod::kHoeffding, 100, 0.05, 0.05, 0));
   ASSERT_OK(b);
-  EXPECT_NEAR(b->half_width_raw, 0.1358101516, kTenDecimals);  // REFERENCES.md section 1
+  EXPECT_NEAR(b->half_width_raw, 0.1358101516, kTenDecimals);  // docs/references.md, Hoeffding
   EXPECT_EQ(b->lower, 0.0);
   EXPECT_NEAR(b->upper, 0.05 + 0.1358101516, kTenDecimals);
 }
@@ -129,8 +131,8 @@ TEST(HoeffdingBoundTest, HugeHypothesisCountStaysInLogSpace) {
 // Inverse: holdout size
 
 TEST(HoeffdingSampleSizeTest, MatchesReferenceSizes) {
-  // REFERENCES.md section 1, inverse two-sided: 737.78 -> 738, 18444.397 -> 18445, 41470.248 ->
-  // 41471.
+  // docs/references.md, Hoeffding, holdout sizes (two-sided): 737.78 -> 738, 18444.397 -> 18445,
+  // 41470.248 -> 41471.
   Result<uint64_t> a = HoeffdingSampleSize(0.05, 0.05, 0, 1);
   Result<uint64_t> b = HoeffdingSampleSize(0.01, 0.05, 0, 1);
   Result<uint64_t> c = HoeffdingSampleSize(0.01, 0.05, std::log(100.0), 1);
@@ -170,8 +172,8 @@ struct CpRow {
   uint64_t k, n;
   double m, lower, upper;
 };
-// REFERENCES.md section 2 (scipy 1.10.1 beta.ppf and R 4.2.2 binom.test/qbeta; the Bonferroni
-// rows use alpha' = 0.05 / M).
+// Clopper–Pearson values computed with scipy 1.10.1 beta.ppf and R 4.2.2 binom.test/qbeta
+// (docs/references.md, Clopper–Pearson); the Bonferroni rows use alpha' = 0.05 / M.
 const CpRow kCpRows[] = {
     {0, 10, 1, 0.0, 0.3084971078},
     {5, 100, 1, 0.0164318792, 0.1128349111},
@@ -197,19 +199,21 @@ TEST(ClopperPearsonBoundTest, MatchesReferenceTableIncludingBonferroniRows) {
 }
 
 TEST(ClopperPearsonBoundTest, ClosedFormsAtTheEdges) {
-  // REFERENCES.md section 2: k = 0 gives U = 1 - (alpha/2)^(1/n); k = n gives L = (alpha/2)^(1/n).
+  // Closed forms (docs/references.md, Clopper–Pearson): k = 0 gives U = 1 - (alpha/2)^(1/n);
+  // k = n gives L = (alpha/2)^(1/n).
   Result<Bound> zero = ComputeBound(CpRequest(0, 10, 0.05, 0));
   Result<Bound> all = ComputeBound(CpRequest(10, 10, 0.05, 0));
   ASSERT_OK(zero);
   ASSERT_OK(all);
-  EXPECT_NEAR(zero->upper, 0.30849710781876, 1e-13);  // REFERENCES.md: 1-0.025^(1/10)
+  EXPECT_NEAR(zero->upper, 0.30849710781876, 1e-13);  // closed form 1-0.025^(1/10)
   EXPECT_EQ(zero->lower, 0.0);
   EXPECT_NEAR(all->lower, 1 - 0.30849710781876, 1e-13);
   EXPECT_EQ(all->upper, 1.0);
 }
 
 TEST(ClopperPearsonBoundTest, OneSidedUpperLimitsMatchReference) {
-  // REFERENCES.md section 2, one-sided upper bound at delta = 0.05 (scipy; R for k = 5).
+  // One-sided upper bound (test-set bound) at delta = 0.05, computed with scipy 1.10.1 (and R 4.2.2
+  // for k = 5) (docs/references.md, Clopper–Pearson).
   const struct {
     uint64_t k, n;
     double upper;
@@ -231,7 +235,7 @@ TEST(ClopperPearsonBoundTest, ScalesIntoTheLossRange) {
   r.mean = 0.1;  // 5 of 100 rows at 2
   Result<Bound> b = ComputeBound(r);
   ASSERT_OK(b);
-  EXPECT_NEAR(b->lower, 2 * 0.0164318792, 2 * kCpTolerance);  // REFERENCES.md section 2, doubled
+  EXPECT_NEAR(b->lower, 2 * 0.0164318792, 2 * kCpTolerance);  // the 5/100 row of kCpRows, doubled
   EXPECT_NEAR(b->upper, 2 * 0.1128349111, 2 * kCpTolerance);
   EXPECT_DOUBLE_EQ(b->estimate, 0.1);
 }
@@ -424,7 +428,8 @@ struct BernsteinRow {
   uint64_t n;
   double mean, variance, log_h, one_sided, two_sided;
 };
-// one_sided: REFERENCES.md section 3 (NumPy var(ddof=1) + Python math, Theorem 4, delta = 0.05).
+// one_sided: Maurer & Pontil (2009) Theorem 4 at delta = 0.05, computed with NumPy var(ddof=1) +
+// Python math (docs/references.md, Empirical Bernstein).
 // two_sided: derived from the same rows with ln(4H/delta) in place of ln(2H/delta) (Theorem 4 on
 // Z and 1-Z at delta/2 each), computed with Python math.
 const BernsteinRow kBernsteinRows[] = {

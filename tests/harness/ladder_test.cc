@@ -1,6 +1,6 @@
-// The Ladder's step rule and its counting, against the check values of
-// shared/REFERENCES.md section 6 (hand trace and step sizes computed there
-// with Python `math`).
+// The Ladder's step rule and its counting (Blum & Hardt 2015, Algorithm 1),
+// against a hand trace and step sizes computed with Python `math`
+// (docs/references.md, Ladder).
 #include "harness/evaluate/ladder.h"
 
 #include <gtest/gtest.h>

@@ -82,8 +82,8 @@ std::unique_ptr<Learner> Make(const std::string& kind, const json& params) {
 }
 
 // ---------------------------------------------------------------------------
-// NIST StRD (certified values: tests/data/nist/certified.json, from
-// REFERENCES.md section 11)
+// NIST StRD (certified values: tests/data/nist/certified.json, transcribed from
+// the public copies in tests/data/nist/README.md; docs/references.md, NIST StRD)
 
 // The least LRE over the coefficients, intercept and residual SD of a fit.
 double CheckNist(const std::string& name, Table t) {

@@ -1,6 +1,6 @@
-// Thresholdout's settings and step, against the check values of
-// shared/REFERENCES.md section 5 (computed there with Python `math` from
-// Theorem 25 and Lemma 24 of arXiv:1506.02629).
+// Thresholdout's settings and step, against check values computed with
+// Python `math` from Theorem 25 and Lemma 24 of Dwork et al.,
+// arXiv:1506.02629 (docs/references.md, Thresholdout).
 #include "harness/evaluate/thresholdout.h"
 
 #include <gtest/gtest.h>

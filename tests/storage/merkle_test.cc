@@ -23,7 +23,7 @@ TEST(MerkleTest, EmptyTreeIsHashOfEmptyString) {
 
 TEST(MerkleTest, Rfc6962ReferenceRoots) {
   // Leaf inputs and roots of the RFC 6962 reference vectors
-  // (transparency-dev/merkle testonly/constants.go, via REFERENCES.md section 9).
+  // (transparency-dev/merkle testonly/constants.go; docs/references.md, RFC 6962 Merkle tree).
   const std::vector<std::string> kLeafHex = {"",
                                              "00",
                                              "10",
@@ -54,7 +54,8 @@ TEST(MerkleTest, Rfc6962ReferenceRoots) {
 }
 
 TEST(MerkleTest, AsciiLeaves) {
-  // Computed with hashlib (REFERENCES.md section 9, "Extra").
+  // Computed with Python hashlib and a separate tree-hash implementation
+  // (docs/references.md, RFC 6962 Merkle tree).
   EXPECT_EQ(ToHex(MerkleRoot({"0", "1", "2"})),
             "725d5230db68f557470dc35f1d8865813acd7ebb07ad152774141decbae71327");
   EXPECT_EQ(ToHex(MerkleRoot({"1"})),

@@ -35,7 +35,7 @@ mpmath.mp.dps = 60
 
 def ks_for(n):
     ks = {0, 1, 2, n // 10, n // 3, n // 2, n - 2, n - 1, n}
-    extra = {925: 682, 1000: 37, 100: 5}  # R's ?binom.test example; REFERENCES.md rows
+    extra = {925: 682, 1000: 37, 100: 5}  # R's ?binom.test example; kCpRows of bounds_test.cc
     if n in extra:
         ks.add(extra[n])
     return sorted(k for k in ks if 0 <= k <= n)
