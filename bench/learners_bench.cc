@@ -20,7 +20,7 @@
 #include <vector>
 
 #include "harness/pipeline/learner.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 
 namespace {
 

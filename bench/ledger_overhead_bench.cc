@@ -19,7 +19,7 @@
 #include "harness/data/csv.h"
 #include "harness/pipeline/pipeline.h"
 #include "harness/pipeline/spec.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 
 namespace {
 
@@ -63,7 +63,7 @@ unseen::Status ReadFrame(const std::string& path, unseen::Frame* frame, Eigen::V
   }
   if (target == header.size()) return unseen::Status::InvalidArgument(path + ": no column y");
   std::vector<double> labels;
-  // Room for the rows, as the tool's own loader (harness/workflow/dataset.cc) makes it.
+  // Room for the rows, as the tool's own loader (harness/ledger/admit.cc) makes it.
   const size_t expected_rows = csv->EstimateRecords();
   frame->Reserve(expected_rows);
   labels.reserve(expected_rows);

@@ -12,7 +12,7 @@
 #include <cstring>
 #include <string>
 
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 
 namespace {
 

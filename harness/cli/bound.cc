@@ -6,8 +6,8 @@
 #include <nlohmann/json.hpp>
 #include <optional>
 
-#include "harness/adaptivity.h"
-#include "harness/bounds.h"
+#include "harness/bounds/adaptivity.h"
+#include "harness/bounds/bounds.h"
 #include "harness/cli/commands.h"
 
 namespace unseen::cli {

@@ -8,7 +8,7 @@
 #include <functional>
 #include <string>
 
-#include "harness/workflow/keys.h"
+#include "harness/ledger/keys.h"
 #include "storage/status.h"
 
 namespace unseen::cli {

@@ -1,6 +1,5 @@
 // unseen eval: score frozen models on the sealed holdout, with bounds that
 // account for every query and how adaptively each model was chosen.
-// unseen budget: raise the holdout budget, as an entry of its own.
 #include "harness/workflow/eval.h"
 
 #include <fmt/core.h>
@@ -8,7 +7,6 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
-#include "harness/workflow/budget.h"
 
 namespace unseen::cli {
 
@@ -203,31 +201,6 @@ Runner SetupEval(CLI::App& app) {
       return Status::OK();
     }
     PrintText(r);
-    return Status::OK();
-  };
-}
-
-Runner SetupBudget(CLI::App& app) {
-  auto opt = std::make_shared<std::pair<CommonOptions, BudgetRequest>>();
-  CLI::App* cmd =
-      app.add_subcommand("budget", "Raise the holdout budget (recorded, shown in every report)");
-  cmd->add_option("--raise", opt->second.add_queries, "Holdout queries to add")->required();
-  cmd->add_option("--reason", opt->second.reason, "Why; recorded in the entry")->required();
-  AddCommonOptions(cmd, &opt->first);
-  return [opt, cmd]() -> Status {
-    if (!cmd->parsed()) return Status::OK();
-    BudgetRequest req = opt->second;
-    req.ledger_path = opt->first.ledger;
-    req.actor = ActorName(opt->first);
-    UNSEEN_ASSIGN_OR_RETURN(BudgetReport r, RaiseBudget(req));
-    if (opt->first.json) {
-      fmt::print(
-          "{}\n",
-          nlohmann::json{{"budget", r.budget}, {"used", r.used}, {"head", ToHex(r.head)}}.dump());
-    } else {
-      fmt::print("Holdout budget raised to {} queries ({} used). The raise is in the ledger.\n",
-                 r.budget, r.used);
-    }
     return Status::OK();
   };
 }

@@ -1,11 +1,11 @@
-// unseen history: the entries in order. unseen status: where things stand.
+// unseen history: the entries in order.
 #include <fmt/core.h>
 
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
 #include "harness/workflow/carve.h"
-#include "harness/workflow/ledger_state.h"
+#include "harness/ledger/ledger_state.h"
 
 namespace unseen::cli {
 
@@ -55,71 +55,6 @@ Runner SetupHistory(CLI::App& app) {
       fmt::print("{:>4}  {:<20}  {:<8}  {:<12}  {:<16}  {}\n", e.seq, b.value("time", std::string()),
                  e.kind, b.value("actor", std::string()), ToHex(e.hash).substr(0, 16), Summary(e, b));
     }
-    return Status::OK();
-  };
-}
-
-Runner SetupStatus(CLI::App& app) {
-  auto opt = std::make_shared<CommonOptions>();
-  CLI::App* cmd = app.add_subcommand("status", "Show the source, the partitions and the holdout budget");
-  AddCommonOptions(cmd, opt.get());
-  return [opt, cmd]() -> Status {
-    if (!cmd->parsed()) return Status::OK();
-    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
-    UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
-    const SourceInfo& s = st.source;
-    if (opt->json) {
-      json j = {{"ledger", opt->ledger}, {"ledger_id", st.ledger_id}, {"entries", st.entries},
-                {"head", ToHex(st.head)},
-                {"source", {{"path", s.path}, {"sha256", ToHex(s.file_sha256)}, {"rows", s.rows},
-                            {"columns", s.columns.size()}, {"task", TaskKindName(s.task)}}},
-                {"sealed", st.seal.has_value()}, {"holdout_queries", st.holdout_queries}};
-      if (st.seal) {
-        j["holdout_rows"] = st.seal->holdout_rows;
-        j["dev_rows"] = st.seal->dev_rows;
-        j["strategy"] = st.seal->strategy;
-        j["budget_queries"] = st.seal->budget_queries;
-        j["budget_remaining"] = st.seal->budget_queries > st.holdout_queries
-                                    ? st.seal->budget_queries - st.holdout_queries : 0;
-        j["budget_raises"] = st.budget_raises;
-        if (st.seal->budget_half_width > 0) {
-          j["budget_half_width"] = st.seal->budget_half_width;
-          j["budget_delta"] = st.seal->budget_delta;
-        }
-        UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
-        j["partitions"] = json::array();
-        for (const NamedPartition& p : parts) {
-          j["partitions"].push_back({{"name", p.name},
-                                     {"rows", p.rows.Cardinality()},
-                                     {"strategy", p.strategy},
-                                     {"seed", p.seed},
-                                     {"row_set", ToHex(p.row_set)},
-                                     {"entry", p.entry_seq}});
-        }
-      }
-      fmt::print("{}\n", j.dump());
-      return Status::OK();
-    }
-    fmt::print("ledger   {} ({} entries, head {})\n", opt->ledger, st.entries, ToHex(st.head));
-    fmt::print("source   {}: {} rows, {} columns, {} task, sha256 {}\n", s.path, s.rows,
-               s.columns.size(), TaskKindName(s.task), ToHex(s.file_sha256));
-    if (!st.seal) {
-      fmt::print("holdout  not sealed yet (run `unseen seal`)\n");
-      return Status::OK();
-    }
-    const SealInfo& seal = *st.seal;
-    fmt::print("holdout  sealed: {} rows ({} split, seed {}); dev {} rows\n", seal.holdout_rows,
-               seal.strategy, seal.seed, seal.dev_rows);
-    UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
-    for (const NamedPartition& p : parts) {
-      fmt::print("carved   {}: {} dev rows ({}, seed {})\n", p.name, p.rows.Cardinality(),
-                 p.strategy, p.seed);
-    }
-    uint64_t left = seal.budget_queries > st.holdout_queries ? seal.budget_queries - st.holdout_queries : 0;
-    fmt::print("queries  {} of {} used, {} remaining{}\n", st.holdout_queries, seal.budget_queries, left,
-               st.budget_raises == 0 ? std::string()
-                                     : fmt::format(" (the budget was raised {} times after the seal)",
-                                                   st.budget_raises));
     return Status::OK();
   };
 }

@@ -1,5 +1,4 @@
 // unseen models: list frozen models, or show one whole.
-// unseen predict: apply a frozen model to rows and write its predictions.
 #include <fmt/core.h>
 
 #include <nlohmann/json.hpp>
@@ -13,10 +12,6 @@ namespace {
 struct ModelsOptions {
   CommonOptions common;
   std::string show;
-};
-struct PredictOptions {
-  CommonOptions common;
-  std::string model, data, out;
 };
 
 // A blend in text: its weights, intercept and each member's contribution.
@@ -89,28 +84,6 @@ Runner SetupModels(CLI::App& app) {
       fmt::print("{:<20} {:<16} {:<10} {:>9} {:>10} {:>8} {:<12}\n", m.name, ToHex(m.digest).substr(0, 16),
                  m.learner, m.rows, m.candidates, m.holdout_answers,
                  m.contaminated ? "CONTAMINATED" : (m.tainted ? "TAINTED" : "clean"));
-    }
-    return Status::OK();
-  };
-}
-
-Runner SetupPredict(CLI::App& app) {
-  auto opt = std::make_shared<PredictOptions>();
-  CLI::App* cmd = app.add_subcommand("predict", "Apply a frozen model to rows (never holdout rows)");
-  cmd->add_option("--model", opt->model, "Frozen model name")->required();
-  cmd->add_option("--data", opt->data, "CSV rows to predict (with or without the target)")->required();
-  cmd->add_option("--out", opt->out, "Where to write id,prediction[,p_CLASS...]")->required();
-  AddCommonOptions(cmd, &opt->common);
-  return [opt, cmd]() -> Status {
-    if (!cmd->parsed()) return Status::OK();
-    PredictRequest req{opt->common.ledger, opt->model, opt->data, opt->out, ActorName(opt->common)};
-    UNSEEN_ASSIGN_OR_RETURN(PredictReport r, PredictWithModel(req));
-    if (opt->common.json) {
-      fmt::print("{}\n", nlohmann::json{{"model", opt->model}, {"rows", r.rows}, {"out", opt->out},
-                                        {"sha256", ToHex(r.out_sha256)}, {"head", ToHex(r.head)}}.dump());
-    } else {
-      fmt::print("Wrote {} predictions of {} to {} (sha256 {})\n", r.rows, opt->model, opt->out,
-                 ToHex(r.out_sha256));
     }
     return Status::OK();
   };

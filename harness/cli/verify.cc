@@ -1,5 +1,5 @@
 // unseen verify: recompute the chain and every digest; with a key, check
-// the sealed holdout too. unseen head: print the current head.
+// the sealed holdout too.
 #include <fmt/core.h>
 
 #include <nlohmann/json.hpp>
@@ -60,24 +60,6 @@ Runner SetupVerify(CLI::App& app) {
                  out.holdout_rows_checked);
     } else if (req.key && !out.sealed) {
       fmt::print("note: the ledger is not sealed yet; no holdout to check\n");
-    }
-    return Status::OK();
-  };
-}
-
-Runner SetupHead(CLI::App& app) {
-  auto opt = std::make_shared<CommonOptions>();
-  CLI::App* cmd = app.add_subcommand("head", "Print the hash of the newest entry (pin it to "
-                                             "detect a rewrite later)");
-  AddCommonOptions(cmd, opt.get());
-  return [opt, cmd]() -> Status {
-    if (!cmd->parsed()) return Status::OK();
-    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
-    UNSEEN_ASSIGN_OR_RETURN(Digest256 head, ledger->Head());
-    if (opt->json) {
-      fmt::print("{}\n", nlohmann::json{{"head", ToHex(head)}}.dump());
-    } else {
-      fmt::print("{}\n", ToHex(head));
     }
     return Status::OK();
   };

@@ -18,7 +18,7 @@
 #include "harness/data/csv.h"
 #include "harness/data/source_scan.h"
 #include "harness/evaluate/guard.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 
 namespace unseen {
 

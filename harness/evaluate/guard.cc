@@ -7,7 +7,7 @@
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
 #include "harness/pipeline/pipeline.h"
-#include "harness/workflow/verify.h"
+#include "harness/evaluate/sealed_holdout.h"
 #include "storage/row_set.h"
 
 namespace unseen {

@@ -13,10 +13,10 @@
 #include <string>
 #include <vector>
 
-#include "harness/evaluate/metric_bound.h"
+#include "harness/bounds/metric_bound.h"
 #include "harness/pipeline/frame.h"
 #include "harness/pipeline/frozen_model.h"
-#include "harness/workflow/ledger_state.h"
+#include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 #include "storage/seal_crypto.h"
 

@@ -14,7 +14,7 @@
 #include <string>
 #include <vector>
 
-#include "harness/evaluate/metrics.h"
+#include "harness/pipeline/metrics.h"
 #include "harness/pipeline/frame.h"
 #include "harness/pipeline/learner.h"
 #include "harness/pipeline/nnls.h"

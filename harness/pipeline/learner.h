@@ -4,7 +4,7 @@
 // Lifecycle: Make -> Fit -> Predict / PredictProba -> FittedParams (every
 // fitted parameter as JSON that LoadFitted reads back to an identical
 // learner). Deterministic: any randomness comes from the `seed` parameter
-// through harness/random.h. Not thread-safe while fitting; Predict is const.
+// through harness/sampling/random.h. Not thread-safe while fitting; Predict is const.
 #ifndef UNSEEN_HARNESS_PIPELINE_LEARNER_H_
 #define UNSEEN_HARNESS_PIPELINE_LEARNER_H_
 

@@ -10,7 +10,7 @@
 #include <map>
 #include <set>
 
-#include "harness/folds.h"
+#include "harness/sampling/folds.h"
 #include "harness/pipeline/blend.h"
 #include "harness/workflow/carve.h"
 #include "harness/workflow/fit_steps.h"

@@ -2,7 +2,7 @@
 
 #include <nlohmann/json.hpp>
 
-#include "harness/workflow/ledger_state.h"
+#include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 
 namespace unseen {

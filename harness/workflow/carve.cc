@@ -8,9 +8,9 @@
 
 #include "harness/data/csv.h"
 #include "harness/data/source_scan.h"
-#include "harness/split.h"
-#include "harness/workflow/dataset.h"
-#include "harness/workflow/ledger_state.h"
+#include "harness/sampling/split.h"
+#include "harness/ledger/admit.h"
+#include "harness/ledger/ledger_state.h"
 
 namespace unseen {
 

@@ -46,7 +46,7 @@ struct CarveReport {
 };
 
 // Carves the partition and appends its entry in one transaction. The
-// strategy is the split code's (harness/split.h) applied to the dev rows in
+// strategy is the split code's (harness/sampling/split.h) applied to the dev rows in
 // ascending order: whole groups when the source has a group column,
 // otherwise stratified by class with `stratified`, otherwise random; the
 // same request gives the same rows on every machine. Reads the registered

@@ -8,16 +8,16 @@
 #include <nlohmann/json.hpp>
 #include <set>
 
-#include "harness/adaptivity.h"
+#include "harness/bounds/adaptivity.h"
 #include "harness/evaluate/guard.h"
-#include "harness/evaluate/ladder.h"
-#include "harness/evaluate/metric_bound.h"
-#include "harness/evaluate/thresholdout.h"
+#include "harness/bounds/ladder.h"
+#include "harness/bounds/metric_bound.h"
+#include "harness/bounds/thresholdout.h"
 #include "harness/pipeline/pipeline.h"
-#include "harness/workflow/dataset.h"
+#include "harness/ledger/admit.h"
 #include "harness/workflow/fit.h"
-#include "harness/workflow/ledger_state.h"
-#include "harness/workflow/lineage.h"
+#include "harness/ledger/ledger_state.h"
+#include "harness/ledger/lineage.h"
 #include "harness/workflow/models.h"
 #include "storage/seal_crypto.h"
 #include "storage/sealed_blob.h"

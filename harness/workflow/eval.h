@@ -13,7 +13,7 @@
 #include <string>
 #include <vector>
 
-#include "harness/workflow/keys.h"
+#include "harness/ledger/keys.h"
 #include "storage/digest.h"
 #include "storage/status.h"
 
@@ -40,11 +40,11 @@ struct EvalRequest {
   std::optional<std::pair<double, double>> range;  // regression target range; else the source's
   double prob_floor = 1e-4;                        // log loss
   std::string accept_contamination;                // non-empty: evaluate tainted models anyway
-  // Ladder mode: submissions answered by the Ladder (harness/evaluate/ladder.h).
+  // Ladder mode: submissions answered by the Ladder (harness/bounds/ladder.h).
   bool ladder = false;
   std::optional<double> ladder_step;  // eta in the loss's units; default the C = 1 step
   // Thresholdout mode: each model's training-rows loss (from train_data, the
-  // dev file by default) is compared with the holdout's (harness/evaluate/thresholdout.h).
+  // dev file by default) is compared with the holdout's (harness/bounds/thresholdout.h).
   bool thresholdout = false;
   uint64_t thresholdout_budget = 10;  // B: answers that may use the holdout
   std::string train_data;

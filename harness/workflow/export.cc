@@ -4,10 +4,10 @@
 
 #include "harness/data/csv.h"
 #include "harness/data/source_scan.h"
-#include "harness/folds.h"
-#include "harness/workflow/dataset.h"
-#include "harness/workflow/ledger_state.h"
-#include "harness/workflow/staged_file.h"
+#include "harness/sampling/folds.h"
+#include "harness/ledger/admit.h"
+#include "harness/ledger/ledger_state.h"
+#include "storage/staged_file.h"
 #include "storage/ledger.h"
 #include "storage/row_set.h"
 

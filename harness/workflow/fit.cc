@@ -4,14 +4,14 @@
 #include <fstream>
 #include <sstream>
 
-#include "harness/folds.h"
+#include "harness/sampling/folds.h"
 #include "harness/pipeline/blend.h"
 #include "harness/pipeline/pipeline.h"
 #include "harness/pipeline/spec.h"
 #include "harness/workflow/carve.h"
-#include "harness/workflow/dataset.h"
+#include "harness/ledger/admit.h"
 #include "harness/workflow/fit_steps.h"
-#include "harness/workflow/ledger_state.h"
+#include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 
 namespace unseen {

@@ -16,7 +16,7 @@
 
 #include <nlohmann/json.hpp>
 
-#include "harness/bounds.h"
+#include "harness/bounds/bounds.h"
 #include "storage/digest.h"
 #include "storage/status.h"
 

@@ -7,12 +7,12 @@
 #include <string>
 #include <vector>
 
-#include "harness/evaluate/metrics.h"
+#include "harness/pipeline/metrics.h"
 #include "harness/pipeline/learner.h"
 #include "harness/pipeline/spec.h"
-#include "harness/workflow/dataset.h"
+#include "harness/ledger/admit.h"
 #include "harness/workflow/fit.h"
-#include "harness/workflow/ledger_state.h"
+#include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 
 namespace unseen::internal {

@@ -4,9 +4,9 @@
 
 #include <cstdio>
 
-#include "harness/workflow/dataset.h"
-#include "harness/workflow/ledger_state.h"
-#include "harness/workflow/staged_file.h"
+#include "harness/ledger/admit.h"
+#include "harness/ledger/ledger_state.h"
+#include "storage/staged_file.h"
 
 namespace unseen {
 

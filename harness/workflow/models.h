@@ -7,7 +7,7 @@
 #include <string>
 #include <vector>
 
-#include "harness/evaluate/metrics.h"
+#include "harness/pipeline/metrics.h"
 #include "harness/pipeline/frame.h"
 #include "harness/pipeline/frozen_model.h"
 #include "storage/digest.h"

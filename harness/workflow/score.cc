@@ -6,9 +6,9 @@
 
 #include "harness/data/csv.h"
 #include "harness/data/source_scan.h"
-#include "harness/evaluate/metrics.h"
-#include "harness/workflow/dataset.h"
-#include "harness/workflow/ledger_state.h"
+#include "harness/pipeline/metrics.h"
+#include "harness/ledger/admit.h"
+#include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 #include "storage/row_set.h"
 

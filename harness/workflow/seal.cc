@@ -21,8 +21,8 @@
 #include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
-#include "harness/workflow/holdout_sealer.h"
-#include "harness/workflow/staged_file.h"
+#include "harness/ledger/holdout_sealer.h"
+#include "storage/staged_file.h"
 #include "storage/row_set.h"
 #include "storage/sealed_blob.h"
 

@@ -11,8 +11,8 @@
 #include <string>
 #include <vector>
 
-#include "harness/split.h"
-#include "harness/workflow/ledger_state.h"
+#include "harness/sampling/split.h"
+#include "harness/ledger/ledger_state.h"
 #include "storage/seal_crypto.h"
 
 namespace unseen {

@@ -8,7 +8,7 @@
 #include <optional>
 #include <string>
 
-#include "harness/workflow/keys.h"
+#include "harness/ledger/keys.h"
 #include "storage/ledger.h"
 
 namespace unseen {
@@ -31,17 +31,6 @@ struct VerifyOutcome {
 // a key that does not open the holdout (exit 2); InvalidArgument for a
 // malformed --expect-head; Corruption if the expected head is absent.
 Result<VerifyOutcome> VerifyLedger(const VerifyRequest& request);
-
-// Decrypts the holdout into memory and checks each row's digests. Returns
-// the number of rows checked.
-Result<uint64_t> CheckSealedHoldout(const Ledger& ledger, const KeySpec& key);
-
-// The sealed holdout as CSV text (header, then its rows in source order),
-// authenticated, decompressed and decoded in memory. `key` must already
-// match the seal's key check value: a failed tag is then Corruption (damage),
-// as is an unknown holdout encoding. Only the evaluation guard and
-// CheckSealedHoldout call this; the text must never reach a file.
-Result<std::string> OpenHoldoutText(const Ledger& ledger, const LedgerState& state, const Key& key);
 
 }  // namespace unseen
 

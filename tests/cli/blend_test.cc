@@ -14,7 +14,7 @@
 #include <string>
 #include <vector>
 
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 #include "harness/workflow/carve.h"
 #include "storage/ledger.h"
 #include "storage/row_set.h"

@@ -10,7 +10,7 @@
 #include <sstream>
 #include <string>
 
-#include "harness/bounds.h"
+#include "harness/bounds/bounds.h"
 #include "harness/workflow/models.h"
 #include "storage/ledger.h"
 #include "tests/testing/sample_data.h"

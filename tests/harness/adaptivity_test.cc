@@ -1,4 +1,4 @@
-#include "harness/adaptivity.h"
+#include "harness/bounds/adaptivity.h"
 
 #include <gtest/gtest.h>
 

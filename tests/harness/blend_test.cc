@@ -21,7 +21,7 @@
 #include "harness/pipeline/nnls.h"
 #include "harness/pipeline/pipeline.h"
 #include "harness/pipeline/spec.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {

@@ -1,4 +1,4 @@
-#include "harness/bounds.h"
+#include "harness/bounds/bounds.h"
 
 #include <gtest/gtest.h>
 
@@ -10,7 +10,7 @@
 #include <string>
 #include <vector>
 
-#include "harness/adaptivity.h"
+#include "harness/bounds/adaptivity.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {

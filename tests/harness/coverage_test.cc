@@ -10,9 +10,9 @@
 #include <cstdio>
 #include <vector>
 
-#include "harness/adaptivity.h"
-#include "harness/evaluate/metric_bound.h"
-#include "harness/random.h"
+#include "harness/bounds/adaptivity.h"
+#include "harness/bounds/metric_bound.h"
+#include "harness/sampling/random.h"
 
 namespace unseen {
 namespace {

@@ -6,7 +6,7 @@
 
 #include "harness/pipeline/pipeline.h"
 #include "harness/pipeline/spec.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 #include "harness/workflow/fit_steps.h"
 #include "tests/testing/testing.h"
 

@@ -1,7 +1,7 @@
 // The Ladder's step rule and its counting (Blum & Hardt 2015, Algorithm 1),
 // against a hand trace and step sizes computed with Python `math`
 // (docs/references.md, Ladder).
-#include "harness/evaluate/ladder.h"
+#include "harness/bounds/ladder.h"
 
 #include <gtest/gtest.h>
 

@@ -9,7 +9,7 @@
 #include <vector>
 
 #include "harness/pipeline/learner.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {

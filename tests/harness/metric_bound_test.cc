@@ -1,11 +1,11 @@
 // Metric samples, per-metric intervals and the reveal rounding.
-#include "harness/evaluate/metric_bound.h"
+#include "harness/bounds/metric_bound.h"
 
 #include <gtest/gtest.h>
 
 #include <cmath>
 
-#include "harness/adaptivity.h"
+#include "harness/bounds/adaptivity.h"
 
 namespace unseen {
 namespace {

@@ -1,4 +1,4 @@
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 
 #include <gtest/gtest.h>
 
@@ -12,7 +12,7 @@ namespace {
 
 // Expected sequences below were computed with an independent Python
 // implementation (Python 3, arbitrary-precision integers), written from the
-// algorithm descriptions rather than from harness/random.cc:
+// algorithm descriptions rather than from harness/sampling/random.cc:
 //
 //   M = (1 << 64) - 1
 //   def splitmix64(state):

@@ -1,4 +1,4 @@
-#include "harness/split.h"
+#include "harness/sampling/split.h"
 
 #include <gtest/gtest.h>
 
@@ -12,7 +12,7 @@
 #include <string>
 #include <vector>
 
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {

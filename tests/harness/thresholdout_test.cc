@@ -1,7 +1,7 @@
 // Thresholdout's settings and step, against check values computed with
 // Python `math` from Theorem 25 and Lemma 24 of Dwork et al.,
 // arXiv:1506.02629 (docs/references.md, Thresholdout).
-#include "harness/evaluate/thresholdout.h"
+#include "harness/bounds/thresholdout.h"
 
 #include <gtest/gtest.h>
 

@@ -2,7 +2,7 @@
 
 #include <fmt/core.h>
 
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 
 namespace unseen::testing {
 

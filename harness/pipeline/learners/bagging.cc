@@ -11,7 +11,7 @@
 #include <vector>
 
 #include "harness/pipeline/learners/common.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 
 namespace unseen::internal {
 namespace {

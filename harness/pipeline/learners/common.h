@@ -13,7 +13,7 @@
 #include <vector>
 
 #include "harness/pipeline/learner.h"
-#include "harness/random.h"
+#include "harness/sampling/random.h"
 #include "storage/status.h"
 
 namespace unseen::internal {

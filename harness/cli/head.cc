@@ -1,0 +1,29 @@
+// unseen head: print the hash of the newest entry.
+#include <fmt/core.h>
+
+#include <nlohmann/json.hpp>
+
+#include "harness/cli/commands.h"
+#include "storage/ledger.h"
+
+namespace unseen::cli {
+
+Runner SetupHead(CLI::App& app) {
+  auto opt = std::make_shared<CommonOptions>();
+  CLI::App* cmd = app.add_subcommand("head", "Print the hash of the newest entry (pin it to "
+                                             "detect a rewrite later)");
+  AddCommonOptions(cmd, opt.get());
+  return [opt, cmd]() -> Status {
+    if (!cmd->parsed()) return Status::OK();
+    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
+    UNSEEN_ASSIGN_OR_RETURN(Digest256 head, ledger->Head());
+    if (opt->json) {
+      fmt::print("{}\n", nlohmann::json{{"head", ToHex(head)}}.dump());
+    } else {
+      fmt::print("{}\n", ToHex(head));
+    }
+    return Status::OK();
+  };
+}
+
+}  // namespace unseen::cli

@@ -1,0 +1,338 @@
+#include "harness/ledger/admit.h"
+
+#include <algorithm>
+#include <atomic>
+#include <cmath>
+#include <cstring>
+#include <future>
+#include <nlohmann/json.hpp>
+
+#include "harness/data/csv.h"
+#include "harness/data/row_digest.h"
+#include "harness/data/row_matcher.h"
+#include "harness/data/source_scan.h"
+
+namespace unseen {
+
+namespace {
+
+// The columns of the file, mapped to the source's by name.
+struct Layout {
+  std::vector<int> source_of_file;  // file column -> source column, -1 if unknown
+  std::vector<int> file_of_source;  // source column -> file column, -1 if absent
+};
+
+Result<Layout> MapColumns(const CsvFile& csv, const SourceInfo& src) {
+  Layout l;
+  l.file_of_source.assign(src.columns.size(), -1);
+  for (size_t f = 0; f < csv.header().size(); ++f) {
+    auto s = src.ColumnNamed(csv.header()[f]);
+    l.source_of_file.push_back(s ? static_cast<int>(*s) : -1);
+    if (s) l.file_of_source[*s] = static_cast<int>(f);
+  }
+  for (size_t s = 0; s < src.columns.size(); ++s) {
+    if (l.file_of_source[s] < 0 && src.columns[s].role == ColumnRole::kFeature) {
+      return Status::InvalidArgument(csv.path() + ": no column '" + src.columns[s].name +
+                                     "'; expected every feature column of the source");
+    }
+  }
+  return l;
+}
+
+// The class index of a target cell, by its canonical label. Numbers are looked up by their bits
+// among the few seen so far, so no label string is built per row.
+class ClassIndexer {
+ public:
+  explicit ClassIndexer(std::vector<std::string> labels) : labels_(std::move(labels)) {}
+
+  // The index of the cell's label, or -1 when it is not one of the source's classes.
+  int Of(CellKind kind, double number, std::string_view cell) {
+    if (kind != CellKind::kNumber) return Find(cell);
+    if (number == 0) number = 0;  // -0 and +0 are one label
+    uint64_t bits;
+    std::memcpy(&bits, &number, sizeof bits);
+    for (const auto& [b, index] : numbers_) {
+      if (b == bits) return index;
+    }
+    const int index = Find(CanonicalLabel(cell));
+    if (numbers_.size() < kCachedNumbers) numbers_.emplace_back(bits, index);
+    return index;
+  }
+
+ private:
+  static constexpr size_t kCachedNumbers = 64;
+  int Find(std::string_view label) const {
+    auto it = std::lower_bound(labels_.begin(), labels_.end(), label,
+                               [](const std::string& a, std::string_view b) { return a < b; });
+    return it != labels_.end() && *it == label ? static_cast<int>(it - labels_.begin()) : -1;
+  }
+  const std::vector<std::string> labels_;  // sorted
+  std::vector<std::pair<uint64_t, int>> numbers_;
+};
+
+// Appends a row's feature values to the frame and its target (class index or value) to
+// *target when `target_col` is set. InvalidArgument, without the location, for a value that
+// does not fit its column.
+Status AppendValues(const std::vector<std::string_view>& canon,
+                    const std::vector<size_t>& feature_cols, ClassIndexer* classes, TaskKind task,
+                    std::optional<size_t> target_col, Frame* frame, std::vector<double>* target) {
+  for (size_t k = 0; k < feature_cols.size(); ++k) {
+    const std::string_view cell = canon[feature_cols[k]];
+    FrameColumn& col = frame->columns[k];
+    if (col.numeric) {
+      double v = 0;
+      const CellKind kind = ClassifyCell(cell, &v);
+      if (kind == CellKind::kText) {
+        return Status::InvalidArgument("column '" + col.name + "' holds '" + std::string(cell) +
+                                       "'; expected a number");
+      }
+      col.num.push_back(kind == CellKind::kNumber ? v : NAN);
+    } else {
+      col.cat.push_back(IsMissing(cell) ? std::string() : std::string(cell));
+    }
+  }
+  if (!target_col) return Status::OK();
+  std::string_view cell = canon[*target_col];
+  double v = 0;
+  const CellKind kind = ClassifyCell(cell, &v);
+  if (task == TaskKind::kClassification) {
+    const int index = classes->Of(kind, v, cell);
+    if (index < 0) {
+      return Status::InvalidArgument("target '" + std::string(cell) +
+                                     "' is not one of the source's classes");
+    }
+    target->push_back(index);
+  } else {
+    if (kind != CellKind::kNumber) {
+      return Status::InvalidArgument("target '" + std::string(cell) +
+                                     "' is not a number; a regression task expects numbers");
+    }
+    target->push_back(v);
+  }
+  return Status::OK();
+}
+
+}  // namespace
+
+std::vector<std::string> ClassLabels(const SourceInfo& source) {
+  std::vector<std::string> labels;
+  for (const auto& [label, count] : source.target.classes) labels.push_back(label);
+  return labels;
+}
+
+Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const std::string& path,
+                            DataPurpose purpose, DataRefusal* refusal) {
+  if (!st.seal)
+    return Status::FailedPrecondition(ledger.path() + ": seal the holdout first (`unseen seal`)");
+  const SourceInfo& src = st.source;
+  CsvOptions options;
+  options.delimiter = src.delimiter;
+  UNSEEN_ASSIGN_OR_RETURN(auto csv, CsvFile::Open(path, options));
+  UNSEEN_ASSIGN_OR_RETURN(Layout layout, MapColumns(*csv, src));
+  const size_t target_col = *src.ColumnOf(ColumnRole::kTarget);
+  const auto id_col = src.ColumnOf(ColumnRole::kId);
+  const bool labelled = layout.file_of_source[target_col] >= 0;
+  bool full_row = true;  // the file has every source column: content digests apply
+  for (size_t s = 0; s < src.columns.size(); ++s) {
+    if (layout.file_of_source[s] < 0 && (!id_col || s != *id_col)) full_row = false;
+  }
+  if (purpose == DataPurpose::kDevRows && !full_row) {
+    return Status::InvalidArgument(path +
+                                   ": expected every column of the source (development rows)");
+  }
+
+  // Digests to match against: content digests of all rows, feature digests of the holdout.
+  // The matcher reads them from the ledger on its own thread, while this one reads the file and
+  // leaves the ledger alone until Finish().
+  auto load_tables = [&ledger, &st, &src]() -> Result<MatchTables> {
+    MatchTables tables;
+    UNSEEN_ASSIGN_OR_RETURN(tables.content_digests, ledger.GetBlob(st.content_digests));
+    if (tables.content_digests.size() != src.rows * sizeof(RowDigest)) {
+      return Status::Corruption("the content digest list does not match the source's row count");
+    }
+    UNSEEN_ASSIGN_OR_RETURN(tables.holdout_feature_digests,
+                            ledger.GetBlob(st.seal->holdout_feature_digests));
+    UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
+    UNSEEN_ASSIGN_OR_RETURN(tables.holdout, RowSet::Deserialize(set_bytes));
+    return tables;
+  };
+
+  LoadedData out;
+  out.path = path;
+  out.labelled = labelled;
+  std::vector<size_t> feature_cols;
+  for (size_t s = 0; s < src.columns.size(); ++s) {
+    if (src.columns[s].role != ColumnRole::kFeature) continue;
+    feature_cols.push_back(s);
+    out.features.columns.push_back(
+        FrameColumn{src.columns[s].name, src.columns[s].type == ColumnType::kNumeric, {}, {}});
+  }
+  ClassIndexer classes(ClassLabels(src));
+  std::vector<double> target;
+  std::vector<std::string_view> canon(src.columns.size());  // the row in source column order
+  const std::optional<size_t> group_col = src.ColumnOf(ColumnRole::kGroup);
+  const bool has_group = group_col && layout.file_of_source[*group_col] >= 0;
+  const bool has_id = id_col && layout.file_of_source[*id_col] >= 0;
+  // Room for the rows the file seems to hold: vectors that grow by doubling would copy every
+  // column about once more and touch twice the memory.
+  const size_t expected_rows = csv->EstimateRecords();
+  out.features.Reserve(expected_rows);
+  if (labelled) target.reserve(expected_rows);
+  out.lines.reserve(expected_rows);
+  if (has_id) out.ids.reserve(expected_rows);
+  if (has_group) out.groups.reserve(expected_rows);
+
+  // This thread reads the rows and their values; the matcher hashes and looks them up on
+  // another. A holdout row is refused even when the file has other errors, so after the first
+  // bad value the rows are still read and matched, and their values no longer kept.
+  //
+  // The file's SHA-256 runs on a third thread, over the same mapping the rows are read from, so
+  // the digest recorded is that of the bytes used. When it is the digest of the dev file seal
+  // wrote, the file is that file: its rows are the development rows in source order, which is
+  // what matching them would find, so the matcher stops. Until a file of the dev file's size
+  // is known to be another, the matcher is held (it loads nothing and matches nothing), so
+  // that on two cores the reader and the digest each have one to themselves.
+  const CsvFile& file = *csv;
+  const SealInfo& seal = *st.seal;
+  RowMatcher matcher(load_tables, MatchLayout{src.delimiter, layout.file_of_source}, target_col,
+                     id_col, full_row && labelled, purpose == DataPurpose::kDevRows,
+                     /*held=*/file.size() == seal.dev_out_size);
+  std::atomic<bool> is_dev_file{false};
+  std::future<Result<FileDigest>> file_digest =
+      std::async(std::launch::async, [&file, &seal, &matcher, &is_dev_file] {
+        Result<FileDigest> d = file.Sha256();
+        if (d.ok() && d->size == seal.dev_out_size && d->sha256 == seal.dev_out_sha256) {
+          is_dev_file.store(true);
+          matcher.Stop();
+        } else {
+          matcher.Release();
+        }
+        return d;
+      });
+  std::unique_ptr<MatchBatch> batch = matcher.NewBatch();
+  Status bad_value;
+  // A file with the source's columns in the source's order (a dev file) is read as it is.
+  bool same_order = csv->header().size() == src.columns.size();
+  for (size_t c = 0; c < src.columns.size(); ++c) {
+    same_order = same_order && layout.file_of_source[c] == static_cast<int>(c);
+  }
+  Status s = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
+    if (!same_order) {
+      for (size_t c = 0; c < src.columns.size(); ++c) {
+        int fc = layout.file_of_source[c];
+        canon[c] = fc >= 0 ? (*r.fields)[static_cast<size_t>(fc)] : std::string_view();
+      }
+    }
+    const std::vector<std::string_view>& row = same_order ? *r.fields : canon;
+    // The matcher splits and classifies the record on its thread; once it has stopped (the
+    // file is the dev file), nothing more is handed to it.
+    const bool matching = !matcher.stopped();
+    if (matching) batch->AddRow(r.raw, r.line);
+    if (bad_value.ok()) {
+      bad_value = AppendValues(row, feature_cols, &classes, src.task,
+                               labelled ? std::optional<size_t>(target_col) : std::nullopt,
+                               &out.features, &target);
+      if (bad_value.ok()) {
+        out.lines.push_back(r.line);
+        if (has_id) out.ids.emplace_back(row[*id_col]);
+        if (has_group) out.groups.emplace_back(row[*group_col]);
+      } else {
+        bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
+      }
+    }
+    if (matching && batch->full()) {
+      matcher.Add(std::move(batch));
+      batch = matcher.NewBatch();
+    }
+    return Status::OK();
+  });
+  if (batch->rows() > 0) matcher.Add(std::move(batch));
+  Result<FileDigest> fd = file_digest.get();
+  MatchResult matched = matcher.Finish();
+  UNSEEN_RETURN_IF_ERROR(matched.status);
+  UNSEEN_RETURN_IF_ERROR(s);
+  if (!fd.ok()) return fd.status();
+  std::optional<RowSet> dev_set;  // the seal's, when the file is the dev file
+  if (is_dev_file.load()) {
+    UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger.GetBlob(seal.dev_set));
+    UNSEEN_ASSIGN_OR_RETURN(dev_set, RowSet::Deserialize(dev_bytes));
+    matched.dev_rows = dev_set->ToVector();
+    matched.holdout_rows = matched.other_rows = 0;
+    matched.first_lines.clear();
+    if (matched.dev_rows.size() != out.lines.size() && bad_value.ok()) {
+      return Status::Corruption(path + ": has the dev file's SHA-256 but " +
+                                std::to_string(out.lines.size()) + " rows, not the " +
+                                std::to_string(matched.dev_rows.size()) + " of the dev row set");
+    }
+  }
+  refusal->holdout_rows = matched.holdout_rows;
+  refusal->not_dev_rows = matched.other_rows;
+  refusal->first_lines = matched.first_lines;
+  std::vector<uint32_t> dev_rows = std::move(matched.dev_rows);
+  if (refusal->holdout_rows > 0 || refusal->not_dev_rows > 0) {
+    std::string lines;
+    for (uint64_t l : refusal->first_lines)
+      lines += (lines.empty() ? "" : ", ") + std::to_string(l);
+    if (refusal->holdout_rows > 0) {
+      return Status::Refused(path + ": " + std::to_string(refusal->holdout_rows) +
+                             " rows match sealed holdout rows (first lines: " + lines +
+                             "); holdout rows may not be used to build models");
+    }
+    return Status::Refused(path + ": " + std::to_string(refusal->not_dev_rows) +
+                           " rows are not development rows of this ledger's source (first lines: " +
+                           lines + "); expected rows from the dev file");
+  }
+  UNSEEN_RETURN_IF_ERROR(bad_value);
+  if (out.lines.empty()) return Status::InvalidArgument(path + ": no data rows");
+  out.target = Eigen::Map<Eigen::VectorXd>(target.data(), static_cast<Eigen::Index>(target.size()));
+  if (dev_set) {
+    out.rows_read = std::move(*dev_set);
+    out.source_rows = std::move(dev_rows);
+  } else {
+    out.source_rows = dev_rows;
+    std::sort(dev_rows.begin(), dev_rows.end());
+    out.rows_read = RowSet::FromSorted(dev_rows);
+  }
+  out.file_sha256 = fd->sha256;
+  return out;
+}
+
+LoadedData SelectRows(const LoadedData& d, const std::vector<size_t>& rows) {
+  LoadedData out;
+  out.path = d.path;
+  out.file_sha256 = d.file_sha256;
+  out.labelled = d.labelled;
+  out.features = d.features.Select(rows);
+  out.target.resize(d.labelled ? static_cast<Eigen::Index>(rows.size()) : 0);
+  std::vector<uint32_t> read;
+  for (size_t i = 0; i < rows.size(); ++i) {
+    size_t r = rows[i];
+    if (d.labelled)
+      out.target(static_cast<Eigen::Index>(i)) = d.target(static_cast<Eigen::Index>(r));
+    out.ids.push_back(d.IdOf(r));  // a row number of `d` would change here: kept as text
+    if (!d.groups.empty()) out.groups.push_back(d.groups[r]);
+    out.source_rows.push_back(d.source_rows[r]);
+    out.lines.push_back(d.lines[r]);
+    read.push_back(d.source_rows[r]);
+  }
+  std::sort(read.begin(), read.end());
+  out.rows_read = RowSet::FromSorted(read);
+  return out;
+}
+
+Status RecordRefusal(const std::string& ledger_path, const std::string& actor,
+                     const std::string& command, const Status& reason,
+                     const std::string& details_json) {
+  UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(ledger_path, LedgerMode::kReadWrite));
+  UNSEEN_RETURN_IF_ERROR(ledger->Begin());
+  nlohmann::json fields = {{"command", command},
+                           {"code", static_cast<int>(reason.code())},
+                           {"reason", reason.message()},
+                           {"details", nlohmann::json::parse(details_json)},
+                           {"summary", command + " refused: " + reason.message()}};
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("refusal", actor, fields.dump()));
+  (void)e;
+  return ledger->Commit();
+}
+
+}  // namespace unseen

@@ -1,0 +1,65 @@
+// LedgerState: what the entries of a ledger say about its source and seal,
+// read back into plain values. Used by every command after `init`.
+// Thread-compatible.
+#ifndef UNSEEN_HARNESS_LEDGER_LEDGER_STATE_H_
+#define UNSEEN_HARNESS_LEDGER_LEDGER_STATE_H_
+
+#include <optional>
+#include <string>
+
+#include "harness/data/source.h"
+#include "storage/ledger.h"
+#include "storage/seal_crypto.h"
+
+namespace unseen {
+
+// How the seal key was obtained; kept in the seal entry (never the key).
+struct KeyInfo {
+  std::string source = "key-file";  // "key-file" or "passphrase"
+  ScryptParams scrypt;              // for "passphrase"
+  std::string salt_hex;             // for "passphrase"
+  std::string key_check_hex;        // KeyCheck(key, ledger_id)
+};
+
+struct SealInfo {
+  int64_t entry_seq = 0;
+  std::string strategy;
+  double fraction = 0;
+  uint64_t seed = 0;
+  uint64_t holdout_rows = 0, dev_rows = 0;
+  Digest256 holdout_set{}, dev_set{}, sealed_rows{}, holdout_feature_digests{};
+  // How the sealed rows are laid out before compression (harness/data/holdout_rows.h):
+  // "columns-1", or "csv" for seals written before the encoding had a name.
+  std::string holdout_encoding = "csv";
+  KeyInfo key;
+  uint64_t budget_queries = 0;  // set at seal, plus every `budget` entry's raise
+  double budget_half_width = 0;  // 0: no half-width limit
+  double budget_delta = 0.05;
+  std::string dev_out_path;  // where seal wrote the development rows
+  Digest256 dev_out_sha256{};  // and that file's SHA-256 and size
+  uint64_t dev_out_size = 0;
+};
+
+struct LedgerState {
+  std::string ledger_id;
+  int64_t source_seq = 0;
+  SourceInfo source;
+  std::string source_abs_path;
+  Digest256 row_digests{}, content_digests{};
+  std::optional<SealInfo> seal;
+  uint64_t holdout_queries = 0;  // the queries_spent of every eval entry
+  uint64_t budget_raises = 0;    // `budget` entries
+  int64_t entries = 0;
+  Digest256 head{};
+};
+
+// Reads the state. Corruption if the genesis or source entry is missing or
+// malformed (run `unseen verify` for the full check).
+Result<LedgerState> ReadLedgerState(const Ledger& ledger);
+
+// The AAD that binds a sealed blob to its ledger and holdout.
+std::string SealedAad(const std::string& ledger_id, const Digest256& holdout_set);
+
+}  // namespace unseen
+
+#endif  // UNSEEN_HARNESS_LEDGER_LEDGER_STATE_H_
