@@ -1,0 +1,237 @@
+#include <cmath>
+#include <limits>
+#include <set>
+
+#include "harness/bounds/adaptivity.h"
+#include "harness/ledger/lineage.h"
+#include "harness/workflow/eval_steps.h"
+#include "harness/workflow/fit.h"
+#include "harness/workflow/models.h"
+
+namespace unseen::internal {
+
+using json = nlohmann::json;
+
+namespace {
+
+// What makes two queries the same question.
+json QueryKey(const std::string& digest, const std::string& metric, const std::string& method,
+              double delta, const json& range) {
+  return json{{"model_digest", digest},
+              {"metric", metric},
+              {"method", method},
+              {"delta", delta},
+              {"range", range}};
+}
+
+// An external predictor's identity (command line and attached files'
+// digests) and its taints: attached files holding holdout rows.
+Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
+                            const ExternalModelRequest& ext) {
+  UNSEEN_RETURN_IF_ERROR(CheckModelName(ext.name));
+  if (!(ext.timeout_seconds > 0 && ext.timeout_seconds <= 86400)) {
+    return Status::InvalidArgument("--timeout: expected seconds in (0, 86400]");
+  }
+  Query q;
+  q.name = ext.name;
+  q.kind = "external";
+  q.frozen_at = std::numeric_limits<int64_t>::max();  // frozen now: after every reveal so far
+  json attached = json::array();
+  for (const std::string& path : ext.attach) {
+    auto digest = Sha256File(path);
+    if (!digest.ok())
+      return Status::InvalidArgument("--attach " + path + ": " + digest.status().message());
+    attached.push_back({{"path", path}, {"sha256", ToHex(digest->sha256)}});
+    DataRefusal refusal;
+    auto loaded = LoadData(ledger, st, path, DataPurpose::kNewRows, &refusal);
+    if (!loaded.ok() && loaded.status().IsRefused()) {
+      q.taints.push_back("attached file " + path + " holds " +
+                         std::to_string(refusal.holdout_rows) + " holdout rows");
+    }
+  }
+  q.model = {{"command", ext.command}, {"attached", attached}};
+  UNSEEN_ASSIGN_OR_RETURN(std::string canonical, CanonicalJson(q.model.dump()));
+  q.digest = Sha256Of(canonical);
+  return q;
+}
+
+// A frozen model by name, loaded with its members: the guard must not read
+// the ledger while it holds rows.
+Result<Query> FrozenQuery(const Ledger& ledger, const LedgerState& st, const std::string& name) {
+  Query q;
+  q.name = name;
+  q.kind = "frozen";
+  ModelSummary summary;
+  auto model = LoadModel(ledger, name, &summary);
+  if (!model.ok()) return Status::InvalidArgument(model.status().message());
+  q.model = std::move(*model);
+  q.digest = summary.digest;
+  q.frozen_at = summary.fit_entry;
+  UNSEEN_ASSIGN_OR_RETURN(Lineage lineage, TraceLineage(ledger, st, summary.fit_entry, q.model));
+  q.taints = lineage.taints;
+  auto frozen = LoadFrozenModel(ledger, q.model);
+  if (!frozen.ok())
+    return Status::InvalidArgument("model '" + name + "': " + frozen.status().message());
+  q.frozen = std::make_shared<FrozenModel>(std::move(*frozen));
+  return q;
+}
+
+// Points each query at the first earlier reveal of the same question.
+void FindRepeats(EvalRun* run) {
+  const json range = {run->setup.probe.range_lo, run->setup.probe.range_hi};
+  for (Query& q : run->queries) {
+    json key = QueryKey(ToHex(q.digest), run->metric_name, run->method_name, run->req->delta, range);
+    for (const PastAnswer& p : run->past) {
+      if (!p.reveal) continue;
+      json pk = QueryKey(p.body.at("model_digest"), p.body.at("metric"), p.body.at("method"),
+                         p.body.at("delta").get<double>(), p.body.at("range"));
+      if (pk == key && !q.repeat) q.repeat = &p;
+    }
+  }
+}
+
+}  // namespace
+
+Result<MetricSetup> SetUpMetric(const EvalRequest& req, const LedgerState& st) {
+  MetricSetup m;
+  const bool classification = st.source.task == TaskKind::kClassification;
+  const LearnTask task = classification ? LearnTask::kClassification : LearnTask::kRegression;
+  const int classes = static_cast<int>(st.source.target.classes.size());
+  m.metric = DefaultMetric(task);
+  if (!req.metric.empty()) {
+    auto parsed = ParseMetric(req.metric);
+    if (!parsed.ok()) return Status::InvalidArgument("--metric: " + parsed.status().message());
+    m.metric = *parsed;
+  }
+  Status ok = CheckMetric(m.metric, task, classes);
+  if (!ok.ok()) return Status::InvalidArgument("--metric: " + ok.message());
+  m.method = DefaultBoundMethod(m.metric);
+  if (!req.method.empty()) {
+    auto parsed = ParseBoundMethod(req.method);
+    if (!parsed.ok()) return Status::InvalidArgument("--method: " + parsed.status().message());
+    m.method = *parsed;
+  }
+  UNSEEN_RETURN_IF_ERROR(CheckBoundMethod(m.metric, m.method));
+  if (!(req.delta > 0 && req.delta < 1)) {
+    return Status::InvalidArgument("--delta " + std::to_string(req.delta) +
+                                   ": expected a value in (0, 1)");
+  }
+  if (req.range) {
+    m.range.target_lo = req.range->first;
+    m.range.target_hi = req.range->second;
+    m.range.target_range_source = "declared";
+  } else {
+    m.range.target_lo = st.source.target.min;
+    m.range.target_hi = st.source.target.max;
+    m.range.target_range_source = "source";
+  }
+  m.range.prob_floor = req.prob_floor;
+  if (!classification && !(std::isfinite(m.range.target_lo) && std::isfinite(m.range.target_hi) &&
+                           m.range.target_lo < m.range.target_hi)) {
+    return Status::InvalidArgument(
+        "--range: the target range [" + std::to_string(m.range.target_lo) + ", " +
+        std::to_string(m.range.target_hi) + "] is empty; expected --range LO:HI with LO < HI");
+  }
+  if (!(req.prob_floor > 0 && req.prob_floor < 0.5)) {
+    return Status::InvalidArgument("--prob-floor " + std::to_string(req.prob_floor) +
+                                   ": expected a value in (0, 0.5)");
+  }
+  // The range each metric lies in, without data.
+  m.probe.range_lo = 0;
+  m.probe.range_hi = 1;
+  const double w = m.range.target_hi - m.range.target_lo;
+  if (m.metric == Metric::kMse) m.probe.range_hi = w * w;
+  if (m.metric == Metric::kMae) m.probe.range_hi = w;
+  if (m.metric == Metric::kLogLoss) m.probe.range_hi = -std::log(req.prob_floor);
+  return m;
+}
+
+Status CheckModes(const EvalRun& run) {
+  const EvalRequest& req = *run.req;
+  const Metric metric = run.setup.metric;
+  if (req.ladder && req.thresholdout) {
+    return Status::InvalidArgument("--ladder and --thresholdout exclude each other");
+  }
+  if (req.thresholdout && (metric == Metric::kAuc || metric == Metric::kBalancedAccuracy)) {
+    return Status::InvalidArgument(
+        "--thresholdout: metric " + std::string(MetricName(metric)) +
+        " is not a mean over rows; expected error_rate, accuracy, brier, "
+        "log_loss, mse or mae");
+  }
+  if (req.thresholdout && req.external) {
+    return Status::InvalidArgument(
+        "--thresholdout needs each model's loss on its training rows; "
+        "external predictors have none here");
+  }
+  if (req.ladder && !LowerIsBetter(metric)) {
+    return Status::InvalidArgument(
+        "--ladder: metric " + run.metric_name +
+        " is not a loss; expected error_rate, log_loss, brier, mse or mae");
+  }
+  return Status::OK();
+}
+
+Result<std::vector<PastAnswer>> PastAnswers(const Ledger& ledger) {
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> evals, ledger.EntriesOfKind("eval"));
+  std::vector<PastAnswer> out;
+  for (const Entry& e : evals) {
+    try {
+      json b = json::parse(e.body);
+      for (const json& a : b.at("answers")) {
+        PastAnswer p;
+        p.entry = e.seq;
+        p.body = a;
+        p.reveal = a.at("repeat_of").is_null();
+        out.push_back(std::move(p));
+      }
+    } catch (const std::exception& ex) {
+      return Status::Corruption("entry " + std::to_string(e.seq) +
+                                " (eval) is malformed: " + ex.what());
+    }
+  }
+  return out;
+}
+
+Status PlanQueries(EvalRun* run) {
+  const EvalRequest& req = *run->req;
+  std::set<std::string> names;
+  for (const std::string& name : req.models) {
+    if (!names.insert(name).second) {
+      return Status::InvalidArgument("model '" + name +
+                                     "' is named twice; expected each model once");
+    }
+    UNSEEN_ASSIGN_OR_RETURN(Query q, FrozenQuery(*run->ledger, run->st, name));
+    run->queries.push_back(std::move(q));
+  }
+  if (req.external) {
+    UNSEEN_ASSIGN_OR_RETURN(Query q, ExternalQuery(*run->ledger, run->st, *req.external));
+    if (!names.insert(q.name).second) {
+      return Status::InvalidArgument("--name " + q.name + ": also named as a frozen model");
+    }
+    run->queries.push_back(std::move(q));
+  }
+  FindRepeats(run);
+  run->new_queries = 0;
+  for (const Query& q : run->queries) run->new_queries += q.repeat ? 0 : 1;
+  return Status::OK();
+}
+
+void WeighAdaptivity(EvalRun* run) {
+  std::vector<double> weights;
+  for (const PastAnswer& p : run->past) {
+    if (p.reveal) weights.push_back(p.body.at("log_weight").get<double>());
+  }
+  for (Query& q : run->queries) {
+    if (q.repeat) continue;
+    for (const PastAnswer& p : run->past) {
+      if (p.reveal && p.entry < q.frozen_at) {
+        q.log_weight += p.body.at("log_values").get<double>();
+        ++q.reveals_before;
+      }
+    }
+    weights.push_back(q.log_weight);
+  }
+  run->log_h = LogHypothesesOfWeights(weights);
+}
+
+}  // namespace unseen::internal

@@ -1,0 +1,162 @@
+// The named steps of the `eval` command (workflow/eval.h), shared by its
+// files: eval.cc runs them in order, eval_plan.cc works out what is asked
+// and what it costs before any holdout value is read, eval_reuse.cc keeps
+// the Ladder's and Thresholdout's state, eval_answer.cc turns each query
+// into the answer shown and recorded. Internal to the eval command; all of
+// it runs inside the command's one ledger transaction. Thread-compatible.
+#ifndef UNSEEN_HARNESS_WORKFLOW_EVAL_STEPS_H_
+#define UNSEEN_HARNESS_WORKFLOW_EVAL_STEPS_H_
+
+#include <cstdint>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "harness/bounds/ladder.h"
+#include "harness/bounds/metric_bound.h"
+#include "harness/bounds/thresholdout.h"
+#include "harness/evaluate/guard.h"
+#include "harness/ledger/admit.h"
+#include "harness/ledger/ledger_state.h"
+#include "harness/workflow/eval.h"
+#include "storage/ledger.h"
+
+namespace unseen::internal {
+
+// One answer already in the ledger.
+struct PastAnswer {
+  int64_t entry = 0;
+  nlohmann::json body;  // the answer object as recorded
+  bool reveal = false;  // false for an answer repeated from an earlier entry
+};
+
+// A model to query: frozen or external.
+struct Query {
+  std::string name, kind;  // kind: "frozen" or "external"
+  Digest256 digest{};
+  int64_t frozen_at = 0;                // the fit entry; for external predictors, this eval
+  nlohmann::json model;                 // frozen: the model JSON; external: its identity
+  std::shared_ptr<FrozenModel> frozen;  // frozen models, ready to apply
+  std::vector<std::string> taints;
+  const PastAnswer* repeat = nullptr;  // the earlier answer to the same question
+  double log_weight = 0;               // sum of ln R over the reveals before its freeze
+  uint64_t reveals_before = 0;
+};
+
+// The metric, its bound and its range, fixed before any holdout value is read.
+struct MetricSetup {
+  Metric metric;
+  BoundMethod method;
+  RangeOptions range;
+  MetricSample probe;  // range_lo / range_hi only
+};
+
+// The Ladder for this call's metric: replayed from earlier answers, then
+// advanced by this call's.
+struct LadderRun {
+  LadderParams params;
+  std::optional<double> value;  // the leaderboard value so far
+  std::string leader;
+  uint64_t used = 0;  // submissions answered before this call
+  bool started = false;
+};
+
+// Thresholdout's settings (fixed at its first answer) and its secret state.
+struct ThresholdoutRun {
+  ThresholdoutParams params;
+  ThresholdoutState state;
+  bool started = false;
+  std::vector<bool> used_holdout;  // per answer of this call
+  std::string aad;                 // binds the sealed state to this ledger
+};
+
+// What one answer shows, whatever the mode; FillAnswer() adds what every
+// answer carries and makes the EvalAnswer and its recorded JSON from it.
+struct Shown {
+  uint64_t n = 0;
+  double estimate = 0, lower = 0, upper = 0, step = 0;
+  double range_lo = 0, range_hi = 1;
+  std::string range_source;
+  uint64_t outside_range = 0;
+  uint64_t reveals_before_freeze = 0;
+  double log_weight = 0, log_hypotheses = 0;
+  std::string mode = "plain";
+  bool improved = false;
+  std::string leader;
+  double ladder_step = 0, tau = 0;
+  std::string assumptions;
+  std::optional<double> log_values;                 // ln R: absent for a repeat
+  std::optional<uint64_t> ladder_max_submissions;   // Ladder answers only
+  int64_t repeat_of = 0;                            // 0: a new answer
+  bool was_contaminated = false;                    // a repeat of a contaminated answer
+};
+
+// Everything one `eval` call knows, step by step.
+struct EvalRun {
+  const EvalRequest* req = nullptr;
+  std::unique_ptr<Ledger> ledger;
+  LedgerState st;
+  MetricSetup setup;
+  std::string metric_name, method_name;
+  std::vector<PastAnswer> past;
+  std::vector<Query> queries;
+  uint64_t new_queries = 0;  // queries that are not repeats
+  EvalReport report;
+  LadderRun ladder;
+  ThresholdoutRun tho;
+  double log_h = 0;  // ln H of the union bound, this call's queries included
+  std::optional<Key> key;
+  std::unique_ptr<HoldoutGuard> guard;
+  std::optional<LoadedData> train_rows;  // Thresholdout: loaded on first use
+  nlohmann::json answers = nlohmann::json::array();  // as recorded
+  std::vector<BlobRef> blobs;
+};
+
+// --- eval_plan.cc: what is asked, before any holdout value is read ---
+
+// The metric, bound method, delta and range; InvalidArgument naming the option.
+Result<MetricSetup> SetUpMetric(const EvalRequest& req, const LedgerState& st);
+// Options that exclude each other or do not fit the metric: InvalidArgument.
+Status CheckModes(const EvalRun& run);
+// Every answer in earlier eval entries. Corruption for a malformed entry.
+Result<std::vector<PastAnswer>> PastAnswers(const Ledger& ledger);
+// The frozen models and the external predictor, with their lineage's taints,
+// and which questions were asked before; sets run->new_queries.
+Status PlanQueries(EvalRun* run);
+// The reveals before each new query's freeze, and ln H over every reveal.
+void WeighAdaptivity(EvalRun* run);
+
+// --- eval.cc: refusals (each rolls back and appends a `refusal` entry) ---
+
+// Refused(why) after recording it; the command's transaction is rolled back.
+Status Refuse(EvalRun* run, const std::string& why, const nlohmann::json& details);
+
+// --- eval_reuse.cc: the Ladder's and Thresholdout's state ---
+
+// Replays the Ladder for this metric from earlier answers; with --ladder,
+// checks its step and refuses past its submissions.
+Status ReplayLadder(EvalRun* run);
+// Thresholdout's settings and sealed state from earlier entries (or fresh
+// ones); refuses when its budget is spent. Needs the key.
+Status LoadThresholdout(EvalRun* run);
+// Seals Thresholdout's state with the key into a blob and returns the
+// entry's "thresholdout" object.
+Result<nlohmann::json> SealThresholdoutState(EvalRun* run);
+// A model's mean loss on its training rows, on the [0, 1] scale of the
+// metric's range: the "training set" value Thresholdout compares with.
+Result<double> TrainingMean(EvalRun* run, const Query& q);
+// A uniform draw in (0, 1) from the operating system's random source.
+Result<double> UniformDraw();
+
+// --- eval_answer.cc: one answer per query ---
+
+// The answer to query `q`: repeated from the ledger, or read through the
+// guard and shown as the mode shows it. Appends to run->answers and
+// run->report.answers. REQUIRES: run->guard is open if q is not a repeat.
+Status AnswerQuery(EvalRun* run, const Query& q);
+
+}  // namespace unseen::internal
+
+#endif  // UNSEEN_HARNESS_WORKFLOW_EVAL_STEPS_H_
