@@ -4,7 +4,7 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
-#include "storage/ledger.h"
+#include "harness/workflow/head.h"
 
 namespace unseen::cli {
 
@@ -15,8 +15,7 @@ Runner SetupHead(CLI::App& app) {
   AddCommonOptions(cmd, opt.get());
   return [opt, cmd]() -> Status {
     if (!cmd->parsed()) return Status::OK();
-    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
-    UNSEEN_ASSIGN_OR_RETURN(Digest256 head, ledger->Head());
+    UNSEEN_ASSIGN_OR_RETURN(Digest256 head, ReadHead(opt->ledger));
     if (opt->json) {
       fmt::print("{}\n", nlohmann::json{{"head", ToHex(head)}}.dump());
     } else {

@@ -4,8 +4,7 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
-#include "harness/ledger/ledger_state.h"
-#include "harness/workflow/carve.h"
+#include "harness/workflow/status.h"
 
 namespace unseen::cli {
 
@@ -17,8 +16,8 @@ Runner SetupStatus(CLI::App& app) {
   AddCommonOptions(cmd, opt.get());
   return [opt, cmd]() -> Status {
     if (!cmd->parsed()) return Status::OK();
-    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
-    UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
+    UNSEEN_ASSIGN_OR_RETURN(LedgerStatus status, ReadStatus(opt->ledger));
+    const LedgerState& st = status.state;
     const SourceInfo& s = st.source;
     if (opt->json) {
       json j = {{"ledger", opt->ledger}, {"ledger_id", st.ledger_id}, {"entries", st.entries},
@@ -31,16 +30,14 @@ Runner SetupStatus(CLI::App& app) {
         j["dev_rows"] = st.seal->dev_rows;
         j["strategy"] = st.seal->strategy;
         j["budget_queries"] = st.seal->budget_queries;
-        j["budget_remaining"] = st.seal->budget_queries > st.holdout_queries
-                                    ? st.seal->budget_queries - st.holdout_queries : 0;
+        j["budget_remaining"] = status.budget_remaining();
         j["budget_raises"] = st.budget_raises;
         if (st.seal->budget_half_width > 0) {
           j["budget_half_width"] = st.seal->budget_half_width;
           j["budget_delta"] = st.seal->budget_delta;
         }
-        UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
         j["partitions"] = json::array();
-        for (const NamedPartition& p : parts) {
+        for (const NamedPartition& p : status.partitions) {
           j["partitions"].push_back({{"name", p.name},
                                      {"rows", p.rows.Cardinality()},
                                      {"strategy", p.strategy},
@@ -62,12 +59,11 @@ Runner SetupStatus(CLI::App& app) {
     const SealInfo& seal = *st.seal;
     fmt::print("holdout  sealed: {} rows ({} split, seed {}); dev {} rows\n", seal.holdout_rows,
                seal.strategy, seal.seed, seal.dev_rows);
-    UNSEEN_ASSIGN_OR_RETURN(std::vector<NamedPartition> parts, ListPartitions(*ledger));
-    for (const NamedPartition& p : parts) {
+    for (const NamedPartition& p : status.partitions) {
       fmt::print("carved   {}: {} dev rows ({}, seed {})\n", p.name, p.rows.Cardinality(),
                  p.strategy, p.seed);
     }
-    uint64_t left = seal.budget_queries > st.holdout_queries ? seal.budget_queries - st.holdout_queries : 0;
+    const uint64_t left = status.budget_remaining();
     fmt::print("queries  {} of {} used, {} remaining{}\n", st.holdout_queries, seal.budget_queries, left,
                st.budget_raises == 0 ? std::string()
                                      : fmt::format(" (the budget was raised {} times after the seal)",
