@@ -139,50 +139,53 @@ std::string Tail(const std::string& err) {
   return t.empty() ? std::string() : ": " + t;
 }
 
-}  // namespace
+// What the predictor reads: the feature columns of every holdout row, in a
+// fresh random order, each row under an opaque token; and the way back.
+struct PredictorInput {
+  std::string csv;
+  std::unordered_map<std::string, size_t> row_of_token;
+};
 
-Result<MetricSample> HoldoutGuard::EvaluateExternal(const ExternalPredictor& predictor,
-                                                    Metric metric,
-                                                    const RangeOptions& range) const {
-  const size_t n = static_cast<size_t>(target_.size());
-  // Rows in a fresh random order, each under an opaque token.
+PredictorInput MakeInput(const Frame& features, size_t n, char d, uint64_t shuffle_seed) {
   std::vector<size_t> order(n);
   for (size_t i = 0; i < n; ++i) order[i] = i;
-  Random rng(predictor.shuffle_seed);
+  Random rng(shuffle_seed);
   rng.Shuffle(order.data(), n);
-  std::unordered_map<std::string, size_t> row_of_token;
+  PredictorInput in;
   std::vector<std::string> tokens(n);
   for (size_t i = 0; i < n; ++i) {
     std::string t;
     do {
       t = fmt::format("t{:016x}", rng.Next());
-    } while (row_of_token.count(t));
-    row_of_token[t] = order[i];
+    } while (in.row_of_token.count(t));
+    in.row_of_token[t] = order[i];
     tokens[i] = t;
   }
-  const char d = source_.delimiter;
-  std::string input = "unseen_token";
-  for (const FrameColumn& c : features_.columns) input += d + Quoted(c.name, d);
-  input += "\n";
+  in.csv = "unseen_token";
+  for (const FrameColumn& c : features.columns) in.csv += d + Quoted(c.name, d);
+  in.csv += "\n";
   for (size_t i = 0; i < n; ++i) {
-    input += tokens[i];
-    for (const FrameColumn& c : features_.columns) {
-      input += d;
+    in.csv += tokens[i];
+    for (const FrameColumn& c : features.columns) {
+      in.csv += d;
       if (c.numeric) {
         double v = c.num[order[i]];
-        if (!std::isnan(v)) input += fmt::format("{}", v);
+        if (!std::isnan(v)) in.csv += fmt::format("{}", v);
       } else {
-        input += Quoted(c.cat[order[i]], d);
+        in.csv += Quoted(c.cat[order[i]], d);
       }
     }
-    input += "\n";
+    in.csv += "\n";
   }
+  return in;
+}
 
-  UNSEEN_ASSIGN_OR_RETURN(ChildResult run, RunChild(predictor.command, input, predictor.timeout));
-  const std::string who = "external predictor '" + predictor.command + "'";
+// A predictor that timed out, was killed or failed reveals nothing.
+Status CheckFinished(const ChildResult& run, const std::string& who,
+                     std::chrono::milliseconds timeout) {
   if (run.timed_out) {
     return Status::InvalidArgument(who + " did not finish within " +
-                                   std::to_string(predictor.timeout.count() / 1000.0) +
+                                   std::to_string(timeout.count() / 1000.0) +
                                    " s; it was stopped and nothing was revealed");
   }
   if (WIFSIGNALED(run.status)) {
@@ -195,92 +198,142 @@ Result<MetricSample> HoldoutGuard::EvaluateExternal(const ExternalPredictor& pre
                                    std::to_string(WEXITSTATUS(run.status)) + Tail(run.err) +
                                    "; nothing was revealed");
   }
+  return Status::OK();
+}
 
-  // Its answer: a header, then token,prediction[,p_CLASS...] per row.
-  CsvOptions options;
-  options.delimiter = ',';
-  auto csv = CsvFile::FromBytes("<predictor output>", std::move(run.out), options);
-  if (!csv.ok()) {
-    return Status::InvalidArgument(who + ": " + csv.status().message() +
-                                   "; expected a header line, then token,prediction per row");
+// Reads the predictor's answer: a header, then token,prediction[,p_CLASS...]
+// per row, every token exactly once.
+class OutputReader {
+ public:
+  OutputReader(const SourceInfo& source, const PredictorInput& in, std::string who)
+      : classification_(source.task == TaskKind::kClassification), in_(in),
+        who_(std::move(who)) {
+    for (const auto& [label, count] : source.target.classes) labels_.push_back(label);
   }
-  const auto& header = (*csv)->header();
-  if (header.size() < 2) {
-    return Status::InvalidArgument(who + ": its output has " + std::to_string(header.size()) +
-                                   " columns; expected token,prediction[,p_CLASS...]");
+
+  Result<Predictions> Read(std::string out) {
+    CsvOptions options;
+    options.delimiter = ',';
+    auto csv = CsvFile::FromBytes("<predictor output>", std::move(out), options);
+    if (!csv.ok()) {
+      return Status::InvalidArgument(who_ + ": " + csv.status().message() +
+                                     "; expected a header line, then token,prediction per row");
+    }
+    UNSEEN_RETURN_IF_ERROR(ReadHeader((*csv)->header()));
+    const size_t n = in_.row_of_token.size();
+    p_.value = Eigen::VectorXd::Constant(static_cast<Eigen::Index>(n), NAN);
+    if (has_proba_) {
+      p_.proba = Eigen::MatrixXd::Zero(static_cast<Eigen::Index>(n),
+                                       static_cast<Eigen::Index>(labels_.size()));
+    }
+    seen_.assign(n, false);
+    Status parsed = (*csv)->ForEachRecord([&](const CsvRecord& r) { return ReadRow(r); });
+    if (!parsed.ok()) {
+      if (parsed.code() == StatusCode::kInvalidArgument) return parsed;
+      return Status::InvalidArgument(who_ + ": " + parsed.message());
+    }
+    if (count_ != n) {
+      return Status::InvalidArgument(who_ + " answered " + std::to_string(count_) +
+                                     " rows; expected " + std::to_string(n) + " (one per token)");
+    }
+    return std::move(p_);
   }
-  const bool classification = source_.task == TaskKind::kClassification;
-  std::vector<std::string> labels;
-  for (const auto& [label, count] : source_.target.classes) labels.push_back(label);
-  std::vector<int> proba_col(labels.size(), -1);
-  bool has_proba = false;
-  for (size_t c = 2; c < header.size(); ++c) {
-    for (size_t k = 0; k < labels.size(); ++k) {
-      if (header[c] == "p_" + labels[k]) {
-        proba_col[k] = static_cast<int>(c);
-        has_proba = true;
+
+  int classes() const { return static_cast<int>(labels_.size()); }
+
+ private:
+  Status ReadHeader(const std::vector<std::string>& header) {
+    if (header.size() < 2) {
+      return Status::InvalidArgument(who_ + ": its output has " + std::to_string(header.size()) +
+                                     " columns; expected token,prediction[,p_CLASS...]");
+    }
+    proba_col_.assign(labels_.size(), -1);
+    for (size_t c = 2; c < header.size(); ++c) {
+      for (size_t k = 0; k < labels_.size(); ++k) {
+        if (header[c] == "p_" + labels_[k]) {
+          proba_col_[k] = static_cast<int>(c);
+          has_proba_ = true;
+        }
       }
     }
-  }
-  if (has_proba && std::count(proba_col.begin(), proba_col.end(), -1) > 0) {
-    return Status::InvalidArgument(who +
-                                   ": its output gives probabilities for some classes only; "
-                                   "expected a p_CLASS column for every class");
-  }
-  Predictions p;
-  p.value = Eigen::VectorXd::Constant(static_cast<Eigen::Index>(n), NAN);
-  if (has_proba)
-    p.proba = Eigen::MatrixXd::Zero(static_cast<Eigen::Index>(n),
-                                    static_cast<Eigen::Index>(labels.size()));
-  std::vector<bool> seen(n, false);
-  uint64_t count = 0;
-  Status parsed = (*csv)->ForEachRecord([&](const CsvRecord& r) -> Status {
-    const auto& f = *r.fields;
-    const std::string where = who + ": output line " + std::to_string(r.line);
-    auto it = row_of_token.find(std::string(f[0]));
-    if (it == row_of_token.end())
-      return Status::InvalidArgument(where + ": unknown token '" + std::string(f[0]) + "'");
-    if (seen[it->second])
-      return Status::InvalidArgument(where + ": token " + std::string(f[0]) + " answered twice");
-    seen[it->second] = true;
-    ++count;
-    auto row = static_cast<Eigen::Index>(it->second);
-    if (classification) {
-      std::string label = CanonicalLabel(f[1]);
-      auto l = std::lower_bound(labels.begin(), labels.end(), label);
-      if (l == labels.end() || *l != label) {
-        return Status::InvalidArgument(where + ": prediction '" + std::string(f[1]) +
-                                       "' is not one of the classes");
-      }
-      p.value(row) = static_cast<double>(l - labels.begin());
-      for (size_t k = 0; has_proba && k < labels.size(); ++k) {
-        double v = 0;
-        if (!ParseNumber(f[static_cast<size_t>(proba_col[k])], &v) || !(v >= 0 && v <= 1)) {
-          return Status::InvalidArgument(where + ": probability '" +
-                                         std::string(f[static_cast<size_t>(proba_col[k])]) +
-                                         "' is not a number in [0, 1]");
-        }
-        p.proba(row, static_cast<Eigen::Index>(k)) = v;
-      }
-    } else {
-      double v = 0;
-      if (!ParseNumber(f[1], &v) || !std::isfinite(v)) {
-        return Status::InvalidArgument(where + ": prediction '" + std::string(f[1]) +
-                                       "' is not a number");
-      }
-      p.value(row) = v;
+    if (has_proba_ && std::count(proba_col_.begin(), proba_col_.end(), -1) > 0) {
+      return Status::InvalidArgument(who_ +
+                                     ": its output gives probabilities for some classes only; "
+                                     "expected a p_CLASS column for every class");
     }
     return Status::OK();
-  });
-  if (!parsed.ok()) {
-    if (parsed.code() == StatusCode::kInvalidArgument) return parsed;
-    return Status::InvalidArgument(who + ": " + parsed.message());
   }
-  if (count != n) {
-    return Status::InvalidArgument(who + " answered " + std::to_string(count) + " rows; expected " +
-                                   std::to_string(n) + " (one per token)");
+
+  Status ReadRow(const CsvRecord& r) {
+    const auto& f = *r.fields;
+    const std::string where = who_ + ": output line " + std::to_string(r.line);
+    auto it = in_.row_of_token.find(std::string(f[0]));
+    if (it == in_.row_of_token.end())
+      return Status::InvalidArgument(where + ": unknown token '" + std::string(f[0]) + "'");
+    if (seen_[it->second])
+      return Status::InvalidArgument(where + ": token " + std::string(f[0]) + " answered twice");
+    seen_[it->second] = true;
+    ++count_;
+    const auto row = static_cast<Eigen::Index>(it->second);
+    return classification_ ? ReadClass(f, row, where) : ReadValue(f, row, where);
   }
-  return SampleMetric(metric, target_, p, static_cast<int>(labels.size()), range);
+
+  Status ReadClass(const std::vector<std::string_view>& f, Eigen::Index row,
+                   const std::string& where) {
+    std::string label = CanonicalLabel(f[1]);
+    auto l = std::lower_bound(labels_.begin(), labels_.end(), label);
+    if (l == labels_.end() || *l != label) {
+      return Status::InvalidArgument(where + ": prediction '" + std::string(f[1]) +
+                                     "' is not one of the classes");
+    }
+    p_.value(row) = static_cast<double>(l - labels_.begin());
+    for (size_t k = 0; has_proba_ && k < labels_.size(); ++k) {
+      const std::string_view cell = f[static_cast<size_t>(proba_col_[k])];
+      double v = 0;
+      if (!ParseNumber(cell, &v) || !(v >= 0 && v <= 1)) {
+        return Status::InvalidArgument(where + ": probability '" + std::string(cell) +
+                                       "' is not a number in [0, 1]");
+      }
+      p_.proba(row, static_cast<Eigen::Index>(k)) = v;
+    }
+    return Status::OK();
+  }
+
+  Status ReadValue(const std::vector<std::string_view>& f, Eigen::Index row,
+                   const std::string& where) {
+    double v = 0;
+    if (!ParseNumber(f[1], &v) || !std::isfinite(v)) {
+      return Status::InvalidArgument(where + ": prediction '" + std::string(f[1]) +
+                                     "' is not a number");
+    }
+    p_.value(row) = v;
+    return Status::OK();
+  }
+
+  const bool classification_;
+  const PredictorInput& in_;
+  const std::string who_;
+  std::vector<std::string> labels_;  // sorted, as the source's classes
+  std::vector<int> proba_col_;
+  bool has_proba_ = false;
+  Predictions p_;
+  std::vector<bool> seen_;
+  uint64_t count_ = 0;
+};
+
+}  // namespace
+
+Result<MetricSample> HoldoutGuard::EvaluateExternal(const ExternalPredictor& predictor,
+                                                    Metric metric,
+                                                    const RangeOptions& range) const {
+  const size_t n = static_cast<size_t>(target_.size());
+  PredictorInput in = MakeInput(features_, n, source_.delimiter, predictor.shuffle_seed);
+  UNSEEN_ASSIGN_OR_RETURN(ChildResult run, RunChild(predictor.command, in.csv, predictor.timeout));
+  const std::string who = "external predictor '" + predictor.command + "'";
+  UNSEEN_RETURN_IF_ERROR(CheckFinished(run, who, predictor.timeout));
+  OutputReader reader(source_, in, who);
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, reader.Read(std::move(run.out)));
+  return SampleMetric(metric, target_, p, reader.classes(), range);
 }
 
 }  // namespace unseen

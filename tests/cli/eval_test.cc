@@ -557,6 +557,12 @@ TEST_F(ExternalEvalTest, FailedPredictorsRevealNothingAndSpendNothing) {
        "not one of the classes"},
       {"awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"; print $1\",yes\"}'\n",
        "", "answered twice"},
+      {"cat >/dev/null; printf 'token\\nt1\\n'\n", "", "columns; expected token,prediction"},
+      {"awk -F, 'NR==1{print \"token,prediction,p_yes\"; next} {print $1\",yes,0.5\"}'\n", "",
+       "probabilities for some classes only"},
+      {"awk -F, 'NR==1{print \"token,prediction,p_no,p_yes\"; next} "
+       "{print $1\",yes,0.5,1.5\"}'\n",
+       "", "is not a number in [0, 1]"},
   };
   for (const Case& c : cases) {
     RunResult r = External(c.script, c.extra);
