@@ -182,6 +182,129 @@ void HoldoutRowsEncoder::AddBlock(std::string_view text, const std::vector<size_
   }
 }
 
+namespace {
+
+// One column of a block, as laid out in the encoding.
+struct ColumnView {
+  const char* kinds;  // one kind byte per plain row
+  uint8_t width;      // bytes per number
+  const char* planes;  // byte plane k of number i at planes[k * numbers + i]
+  size_t numbers;
+  Reader texts{std::string_view()};  // the column's text cells, in row order
+};
+
+// A block's rows kept verbatim, by row index within the block (increasing).
+using Literals = std::vector<std::pair<uint64_t, std::string_view>>;
+
+Status ReadBlockHeader(Reader* in, uint64_t limit, uint64_t* rows, Literals* literals) {
+  uint64_t literal_count = 0;
+  if (!in->Varint(rows) || *rows == 0 || *rows > limit || !in->Varint(&literal_count) ||
+      literal_count > *rows) {
+    return Malformed("bad block header");
+  }
+  literals->assign(literal_count, {});
+  for (size_t i = 0; i < literals->size(); ++i) {
+    uint64_t index = 0, size = 0;
+    const char* at;
+    if (!in->Varint(&index) || index >= *rows || (i > 0 && index <= (*literals)[i - 1].first) ||
+        !in->Varint(&size) || !in->Bytes(size, &at)) {
+      return Malformed("bad verbatim row");
+    }
+    (*literals)[i] = {index, std::string_view(at, size)};
+  }
+  return Status::OK();
+}
+
+// Reads one column's kinds, numbers and texts, checking every kind byte and
+// walking the text cells to find where the next column starts.
+Status ReadColumn(Reader* in, size_t plain_rows, ColumnView* c) {
+  const char* width;
+  if (!in->Bytes(plain_rows, &c->kinds) || !in->Bytes(1, &width) || *width > 8) {
+    return Malformed("bad column");
+  }
+  c->width = static_cast<uint8_t>(*width);
+  c->numbers = 0;
+  size_t text_cells = 0;
+  for (size_t r = 0; r < plain_rows; ++r) {
+    const uint8_t k = static_cast<uint8_t>(c->kinds[r]);
+    if (k == kKindText) {
+      ++text_cells;
+    } else if ((k & ~(kKindNegative | 0x1F)) != 0 || (k & 0x1F) > kMaxDigits) {
+      return Malformed("bad kind byte");
+    } else {
+      ++c->numbers;
+    }
+  }
+  if (!in->Bytes(c->width * c->numbers, &c->planes)) return Malformed("truncated numbers");
+  const char* texts_begin = nullptr;
+  if (!in->Bytes(0, &texts_begin)) return Malformed("truncated texts");
+  Reader walk = *in;
+  for (size_t t = 0; t < text_cells; ++t) {
+    uint64_t size = 0;
+    const char* at;
+    if (!walk.Varint(&size) || !walk.Bytes(size, &at)) return Malformed("truncated texts");
+  }
+  const char* texts_end;
+  walk.Bytes(0, &texts_end);
+  c->texts = Reader(std::string_view(texts_begin, static_cast<size_t>(texts_end - texts_begin)));
+  *in = walk;
+  return Status::OK();
+}
+
+// Appends plain row `plain` of the block: each column's cell, delimited.
+Status WritePlainRow(std::vector<ColumnView>& cols, size_t plain, char delimiter,
+                     std::vector<size_t>& number_at, std::string* out) {
+  for (size_t c = 0; c < cols.size(); ++c) {
+    ColumnView& col = cols[c];
+    if (c > 0) out->push_back(delimiter);
+    const uint8_t kind = static_cast<uint8_t>(col.kinds[plain]);
+    if (kind == kKindText) {
+      uint64_t size = 0;
+      const char* at = nullptr;
+      // Both succeed: the column's texts were walked by ReadColumn().
+      if (!col.texts.Varint(&size) || !col.texts.Bytes(size, &at)) {
+        return Malformed("truncated texts");
+      }
+      out->append(at, size);
+    } else {
+      uint64_t m = 0;
+      const size_t i = number_at[c]++;
+      for (uint8_t k = 0; k < col.width; ++k) {
+        m |= uint64_t{static_cast<uint8_t>(col.planes[k * col.numbers + i])} << (8 * k);
+      }
+      if (!DecodeNumber(kind, m, out)) return Malformed("a number with more than 19 digits");
+    }
+  }
+  out->push_back('\n');
+  return Status::OK();
+}
+
+// Decodes one block, appending its rows (verbatim and plain, in row order) to *out.
+Status DecodeBlock(Reader* in, uint64_t limit, size_t ncol, char delimiter, std::string* out) {
+  uint64_t rows = 0;
+  Literals literals;
+  UNSEEN_RETURN_IF_ERROR(ReadBlockHeader(in, limit, &rows, &literals));
+  const size_t plain_rows = rows - literals.size();
+  std::vector<ColumnView> cols(ncol);
+  for (ColumnView& c : cols) UNSEEN_RETURN_IF_ERROR(ReadColumn(in, plain_rows, &c));
+  size_t next_literal = 0, plain = 0;
+  std::vector<size_t> number_at(ncol, 0);
+  for (uint64_t r = 0; r < rows; ++r) {
+    if (next_literal < literals.size() && literals[next_literal].first == r) {
+      out->append(literals[next_literal++].second);
+      out->push_back('\n');
+      continue;
+    }
+    if (plain == plain_rows) return Malformed("verbatim row indexes out of order");
+    UNSEEN_RETURN_IF_ERROR(WritePlainRow(cols, plain, delimiter, number_at, out));
+    ++plain;
+  }
+  if (next_literal != literals.size()) return Malformed("verbatim row indexes out of order");
+  return Status::OK();
+}
+
+}  // namespace
+
 Result<std::string> DecodeHoldoutRows(std::string_view encoded) {
   Reader in(encoded);
   const char* magic;
@@ -197,98 +320,8 @@ Result<std::string> DecodeHoldoutRows(std::string_view encoded) {
   }
   std::string out(header, header_size);
   out.push_back('\n');
-  struct ColumnView {
-    const char* kinds;
-    uint8_t width;
-    const char* planes;
-    size_t numbers;
-    Reader texts{std::string_view()};
-  };
-  std::vector<ColumnView> cols(ncol);
   while (!in.AtEnd()) {
-    uint64_t rows = 0, literal_count = 0;
-    if (!in.Varint(&rows) || rows == 0 || rows > encoded.size() || !in.Varint(&literal_count) ||
-        literal_count > rows) {
-      return Malformed("bad block header");
-    }
-    std::vector<std::pair<uint64_t, std::string_view>> literals(literal_count);
-    for (size_t i = 0; i < literals.size(); ++i) {
-      uint64_t index = 0, size = 0;
-      const char* at;
-      if (!in.Varint(&index) || index >= rows || (i > 0 && index <= literals[i - 1].first) ||
-          !in.Varint(&size) || !in.Bytes(size, &at)) {
-        return Malformed("bad verbatim row");
-      }
-      literals[i] = {index, std::string_view(at, size)};
-    }
-    const size_t plain_rows = rows - literal_count;
-    for (ColumnView& c : cols) {
-      const char* width;
-      if (!in.Bytes(plain_rows, &c.kinds) || !in.Bytes(1, &width) || *width > 8) {
-        return Malformed("bad column");
-      }
-      c.width = static_cast<uint8_t>(*width);
-      c.numbers = 0;
-      size_t text_cells = 0;
-      for (size_t r = 0; r < plain_rows; ++r) {
-        const uint8_t k = static_cast<uint8_t>(c.kinds[r]);
-        if (k == kKindText) {
-          ++text_cells;
-        } else if ((k & ~(kKindNegative | 0x1F)) != 0 || (k & 0x1F) > kMaxDigits) {
-          return Malformed("bad kind byte");
-        } else {
-          ++c.numbers;
-        }
-      }
-      if (!in.Bytes(c.width * c.numbers, &c.planes)) return Malformed("truncated numbers");
-      // The text cells follow: walk them to find where the next column starts.
-      const char* texts_begin = nullptr;
-      if (!in.Bytes(0, &texts_begin)) return Malformed("truncated texts");
-      Reader walk = in;
-      for (size_t t = 0; t < text_cells; ++t) {
-        uint64_t size = 0;
-        const char* at;
-        if (!walk.Varint(&size) || !walk.Bytes(size, &at)) return Malformed("truncated texts");
-      }
-      const char* texts_end;
-      walk.Bytes(0, &texts_end);
-      c.texts = Reader(std::string_view(texts_begin, static_cast<size_t>(texts_end - texts_begin)));
-      in = walk;
-    }
-    size_t next_literal = 0, plain = 0;
-    std::vector<size_t> number_at(ncol, 0);
-    for (uint64_t r = 0; r < rows; ++r) {
-      if (next_literal < literals.size() && literals[next_literal].first == r) {
-        out.append(literals[next_literal++].second);
-        out.push_back('\n');
-        continue;
-      }
-      if (plain == plain_rows) return Malformed("verbatim row indexes out of order");
-      for (size_t c = 0; c < ncol; ++c) {
-        ColumnView& col = cols[c];
-        if (c > 0) out.push_back(*delimiter);
-        const uint8_t kind = static_cast<uint8_t>(col.kinds[plain]);
-        if (kind == kKindText) {
-          uint64_t size = 0;
-          const char* at = nullptr;
-          // Both succeed: the column's texts were walked above.
-          if (!col.texts.Varint(&size) || !col.texts.Bytes(size, &at)) {
-            return Malformed("truncated texts");
-          }
-          out.append(at, size);
-        } else {
-          uint64_t m = 0;
-          const size_t i = number_at[c]++;
-          for (uint8_t k = 0; k < col.width; ++k) {
-            m |= uint64_t{static_cast<uint8_t>(col.planes[k * col.numbers + i])} << (8 * k);
-          }
-          if (!DecodeNumber(kind, m, &out)) return Malformed("a number with more than 19 digits");
-        }
-      }
-      out.push_back('\n');
-      ++plain;
-    }
-    if (next_literal != literals.size()) return Malformed("verbatim row indexes out of order");
+    UNSEEN_RETURN_IF_ERROR(DecodeBlock(&in, encoded.size(), ncol, *delimiter, &out));
   }
   return out;
 }
