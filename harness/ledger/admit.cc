@@ -4,7 +4,10 @@
 #include <atomic>
 #include <cmath>
 #include <cstring>
+#include <functional>
 #include <future>
+#include <memory>
+#include <optional>
 #include <nlohmann/json.hpp>
 
 #include "harness/data/csv.h"
@@ -112,6 +115,199 @@ Status AppendValues(const std::vector<std::string_view>& canon,
   return Status::OK();
 }
 
+// What the file's columns say about how its rows are read and matched.
+struct FilePlan {
+  Layout layout;
+  size_t target_col = 0;
+  std::optional<size_t> id_col, group_col;
+  bool labelled = false;   // the file has the target column
+  bool full_row = true;    // every source column but the id: content digests apply
+  bool has_id = false, has_group = false;
+  bool same_order = false;  // the source's columns in the source's order (a dev file)
+};
+
+Result<FilePlan> PlanFile(const CsvFile& csv, const SourceInfo& src, DataPurpose purpose) {
+  FilePlan plan;
+  UNSEEN_ASSIGN_OR_RETURN(plan.layout, MapColumns(csv, src));
+  const std::vector<int>& file_of = plan.layout.file_of_source;
+  plan.target_col = *src.ColumnOf(ColumnRole::kTarget);
+  plan.id_col = src.ColumnOf(ColumnRole::kId);
+  plan.group_col = src.ColumnOf(ColumnRole::kGroup);
+  plan.labelled = file_of[plan.target_col] >= 0;
+  for (size_t s = 0; s < src.columns.size(); ++s) {
+    if (file_of[s] < 0 && (!plan.id_col || s != *plan.id_col)) plan.full_row = false;
+  }
+  if (purpose == DataPurpose::kDevRows && !plan.full_row) {
+    return Status::InvalidArgument(csv.path() +
+                                   ": expected every column of the source (development rows)");
+  }
+  plan.has_group = plan.group_col && file_of[*plan.group_col] >= 0;
+  plan.has_id = plan.id_col && file_of[*plan.id_col] >= 0;
+  plan.same_order = csv.header().size() == src.columns.size();
+  for (size_t c = 0; c < src.columns.size(); ++c) {
+    plan.same_order = plan.same_order && file_of[c] == static_cast<int>(c);
+  }
+  return plan;
+}
+
+// Digests to match against: content digests of all rows, feature digests of the holdout.
+// The matcher reads them from the ledger on its own thread, while the caller reads the file
+// and leaves the ledger alone until Finish().
+std::function<Result<MatchTables>()> TableLoader(const Ledger& ledger, const LedgerState& st) {
+  return [&ledger, &st]() -> Result<MatchTables> {
+    MatchTables tables;
+    UNSEEN_ASSIGN_OR_RETURN(tables.content_digests, ledger.GetBlob(st.content_digests));
+    if (tables.content_digests.size() != st.source.rows * sizeof(RowDigest)) {
+      return Status::Corruption("the content digest list does not match the source's row count");
+    }
+    UNSEEN_ASSIGN_OR_RETURN(tables.holdout_feature_digests,
+                            ledger.GetBlob(st.seal->holdout_feature_digests));
+    UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
+    UNSEEN_ASSIGN_OR_RETURN(tables.holdout, RowSet::Deserialize(set_bytes));
+    return tables;
+  };
+}
+
+// Reads every row's values on the calling thread while a RowMatcher hashes and looks the
+// rows up on another. A holdout row is refused even when the file has other errors, so after
+// the first bad value the rows are still read and matched, and their values no longer kept.
+class RowReader {
+ public:
+  RowReader(const SourceInfo& src, const FilePlan& plan, const CsvFile& csv, RowMatcher* matcher,
+            LoadedData* out)
+      : src_(src), plan_(plan), csv_(csv), matcher_(matcher), out_(out),
+        classes_(ClassLabels(src)), canon_(src.columns.size()) {
+    for (size_t s = 0; s < src.columns.size(); ++s) {
+      if (src.columns[s].role != ColumnRole::kFeature) continue;
+      feature_cols_.push_back(s);
+      out->features.columns.push_back(
+          FrameColumn{src.columns[s].name, src.columns[s].type == ColumnType::kNumeric, {}, {}});
+    }
+    // Room for the rows the file seems to hold: vectors that grow by doubling would copy every
+    // column about once more and touch twice the memory.
+    const size_t expected_rows = csv.EstimateRecords();
+    out->features.Reserve(expected_rows);
+    if (plan.labelled) target_.reserve(expected_rows);
+    out->lines.reserve(expected_rows);
+    if (plan.has_id) out->ids.reserve(expected_rows);
+    if (plan.has_group) out->groups.reserve(expected_rows);
+    batch_ = matcher->NewBatch();
+  }
+
+  // Reads the file; the status of the read itself (a malformed record). Values that do not
+  // fit their column are kept in bad_value().
+  Status ReadAll() {
+    Status s = csv_.ForEachRecord([this](const CsvRecord& r) { return Row(r); });
+    if (batch_->rows() > 0) matcher_->Add(std::move(batch_));
+    return s;
+  }
+
+  const Status& bad_value() const { return bad_value_; }
+  std::vector<double>& target() { return target_; }
+
+ private:
+  Status Row(const CsvRecord& r) {
+    if (!plan_.same_order) {
+      for (size_t c = 0; c < src_.columns.size(); ++c) {
+        int fc = plan_.layout.file_of_source[c];
+        canon_[c] = fc >= 0 ? (*r.fields)[static_cast<size_t>(fc)] : std::string_view();
+      }
+    }
+    const std::vector<std::string_view>& row = plan_.same_order ? *r.fields : canon_;
+    // The matcher splits and classifies the record on its thread; once it has stopped (the
+    // file is the dev file), nothing more is handed to it.
+    const bool matching = !matcher_->stopped();
+    if (matching) batch_->AddRow(r.raw, r.line);
+    if (bad_value_.ok()) Keep(row, r);
+    if (matching && batch_->full()) {
+      matcher_->Add(std::move(batch_));
+      batch_ = matcher_->NewBatch();
+    }
+    return Status::OK();
+  }
+
+  void Keep(const std::vector<std::string_view>& row, const CsvRecord& r) {
+    bad_value_ =
+        AppendValues(row, feature_cols_, &classes_, src_.task,
+                     plan_.labelled ? std::optional<size_t>(plan_.target_col) : std::nullopt,
+                     &out_->features, &target_);
+    if (!bad_value_.ok()) {
+      bad_value_ = Status::InvalidArgument(csv_.Location(r.offset) + ": " + bad_value_.message());
+      return;
+    }
+    out_->lines.push_back(r.line);
+    if (plan_.has_id) out_->ids.emplace_back(row[*plan_.id_col]);
+    if (plan_.has_group) out_->groups.emplace_back(row[*plan_.group_col]);
+  }
+
+  const SourceInfo& src_;
+  const FilePlan& plan_;
+  const CsvFile& csv_;
+  RowMatcher* matcher_;
+  LoadedData* out_;
+  ClassIndexer classes_;
+  std::vector<size_t> feature_cols_;
+  std::vector<std::string_view> canon_;  // the row in source column order
+  std::vector<double> target_;
+  std::unique_ptr<MatchBatch> batch_;
+  Status bad_value_;
+};
+
+// The file's SHA-256, on a third thread over the same mapping the rows are read from, so the
+// digest recorded is that of the bytes used. When it is the digest of the dev file seal wrote,
+// the file is that file: its rows are the development rows in source order, which is what
+// matching them would find, so the matcher stops. Until a file of the dev file's size is known
+// to be another, the matcher is held (it loads nothing and matches nothing), so that on two
+// cores the reader and the digest each have one to themselves.
+std::future<Result<FileDigest>> HashFile(const CsvFile& file, const SealInfo& seal,
+                                         RowMatcher* matcher, std::atomic<bool>* is_dev_file) {
+  return std::async(std::launch::async, [&file, &seal, matcher, is_dev_file] {
+    Result<FileDigest> d = file.Sha256();
+    if (d.ok() && d->size == seal.dev_out_size && d->sha256 == seal.dev_out_sha256) {
+      is_dev_file->store(true);
+      matcher->Stop();
+    } else {
+      matcher->Release();
+    }
+    return d;
+  });
+}
+
+// For the dev file, the seal's own dev row set stands for what matching would have found.
+Result<std::optional<RowSet>> TakeDevRowSet(const Ledger& ledger, const SealInfo& seal,
+                                            const std::string& path, const LoadedData& out,
+                                            bool values_ok, MatchResult* matched) {
+  UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger.GetBlob(seal.dev_set));
+  UNSEEN_ASSIGN_OR_RETURN(RowSet dev_set, RowSet::Deserialize(dev_bytes));
+  matched->dev_rows = dev_set.ToVector();
+  matched->holdout_rows = matched->other_rows = 0;
+  matched->first_lines.clear();
+  if (matched->dev_rows.size() != out.lines.size() && values_ok) {
+    return Status::Corruption(path + ": has the dev file's SHA-256 but " +
+                              std::to_string(out.lines.size()) + " rows, not the " +
+                              std::to_string(matched->dev_rows.size()) + " of the dev row set");
+  }
+  return std::optional<RowSet>(std::move(dev_set));
+}
+
+// Refused when rows match the holdout or are not development rows.
+Status RefuseMatches(const std::string& path, const MatchResult& matched, DataRefusal* refusal) {
+  refusal->holdout_rows = matched.holdout_rows;
+  refusal->not_dev_rows = matched.other_rows;
+  refusal->first_lines = matched.first_lines;
+  if (refusal->holdout_rows == 0 && refusal->not_dev_rows == 0) return Status::OK();
+  std::string lines;
+  for (uint64_t l : refusal->first_lines) lines += (lines.empty() ? "" : ", ") + std::to_string(l);
+  if (refusal->holdout_rows > 0) {
+    return Status::Refused(path + ": " + std::to_string(refusal->holdout_rows) +
+                           " rows match sealed holdout rows (first lines: " + lines +
+                           "); holdout rows may not be used to build models");
+  }
+  return Status::Refused(path + ": " + std::to_string(refusal->not_dev_rows) +
+                         " rows are not development rows of this ledger's source (first lines: " +
+                         lines + "); expected rows from the dev file");
+}
+
 }  // namespace
 
 std::vector<std::string> ClassLabels(const SourceInfo& source) {
@@ -125,166 +321,40 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   if (!st.seal)
     return Status::FailedPrecondition(ledger.path() + ": seal the holdout first (`unseen seal`)");
   const SourceInfo& src = st.source;
+  const SealInfo& seal = *st.seal;
   CsvOptions options;
   options.delimiter = src.delimiter;
   UNSEEN_ASSIGN_OR_RETURN(auto csv, CsvFile::Open(path, options));
-  UNSEEN_ASSIGN_OR_RETURN(Layout layout, MapColumns(*csv, src));
-  const size_t target_col = *src.ColumnOf(ColumnRole::kTarget);
-  const auto id_col = src.ColumnOf(ColumnRole::kId);
-  const bool labelled = layout.file_of_source[target_col] >= 0;
-  bool full_row = true;  // the file has every source column: content digests apply
-  for (size_t s = 0; s < src.columns.size(); ++s) {
-    if (layout.file_of_source[s] < 0 && (!id_col || s != *id_col)) full_row = false;
-  }
-  if (purpose == DataPurpose::kDevRows && !full_row) {
-    return Status::InvalidArgument(path +
-                                   ": expected every column of the source (development rows)");
-  }
-
-  // Digests to match against: content digests of all rows, feature digests of the holdout.
-  // The matcher reads them from the ledger on its own thread, while this one reads the file and
-  // leaves the ledger alone until Finish().
-  auto load_tables = [&ledger, &st, &src]() -> Result<MatchTables> {
-    MatchTables tables;
-    UNSEEN_ASSIGN_OR_RETURN(tables.content_digests, ledger.GetBlob(st.content_digests));
-    if (tables.content_digests.size() != src.rows * sizeof(RowDigest)) {
-      return Status::Corruption("the content digest list does not match the source's row count");
-    }
-    UNSEEN_ASSIGN_OR_RETURN(tables.holdout_feature_digests,
-                            ledger.GetBlob(st.seal->holdout_feature_digests));
-    UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
-    UNSEEN_ASSIGN_OR_RETURN(tables.holdout, RowSet::Deserialize(set_bytes));
-    return tables;
-  };
+  UNSEEN_ASSIGN_OR_RETURN(FilePlan plan, PlanFile(*csv, src, purpose));
 
   LoadedData out;
   out.path = path;
-  out.labelled = labelled;
-  std::vector<size_t> feature_cols;
-  for (size_t s = 0; s < src.columns.size(); ++s) {
-    if (src.columns[s].role != ColumnRole::kFeature) continue;
-    feature_cols.push_back(s);
-    out.features.columns.push_back(
-        FrameColumn{src.columns[s].name, src.columns[s].type == ColumnType::kNumeric, {}, {}});
-  }
-  ClassIndexer classes(ClassLabels(src));
-  std::vector<double> target;
-  std::vector<std::string_view> canon(src.columns.size());  // the row in source column order
-  const std::optional<size_t> group_col = src.ColumnOf(ColumnRole::kGroup);
-  const bool has_group = group_col && layout.file_of_source[*group_col] >= 0;
-  const bool has_id = id_col && layout.file_of_source[*id_col] >= 0;
-  // Room for the rows the file seems to hold: vectors that grow by doubling would copy every
-  // column about once more and touch twice the memory.
-  const size_t expected_rows = csv->EstimateRecords();
-  out.features.Reserve(expected_rows);
-  if (labelled) target.reserve(expected_rows);
-  out.lines.reserve(expected_rows);
-  if (has_id) out.ids.reserve(expected_rows);
-  if (has_group) out.groups.reserve(expected_rows);
-
-  // This thread reads the rows and their values; the matcher hashes and looks them up on
-  // another. A holdout row is refused even when the file has other errors, so after the first
-  // bad value the rows are still read and matched, and their values no longer kept.
-  //
-  // The file's SHA-256 runs on a third thread, over the same mapping the rows are read from, so
-  // the digest recorded is that of the bytes used. When it is the digest of the dev file seal
-  // wrote, the file is that file: its rows are the development rows in source order, which is
-  // what matching them would find, so the matcher stops. Until a file of the dev file's size
-  // is known to be another, the matcher is held (it loads nothing and matches nothing), so
-  // that on two cores the reader and the digest each have one to themselves.
-  const CsvFile& file = *csv;
-  const SealInfo& seal = *st.seal;
-  RowMatcher matcher(load_tables, MatchLayout{src.delimiter, layout.file_of_source}, target_col,
-                     id_col, full_row && labelled, purpose == DataPurpose::kDevRows,
-                     /*held=*/file.size() == seal.dev_out_size);
+  out.labelled = plan.labelled;
+  RowMatcher matcher(TableLoader(ledger, st), MatchLayout{src.delimiter, plan.layout.file_of_source},
+                     plan.target_col, plan.id_col, plan.full_row && plan.labelled,
+                     purpose == DataPurpose::kDevRows,
+                     /*held=*/csv->size() == seal.dev_out_size);
   std::atomic<bool> is_dev_file{false};
-  std::future<Result<FileDigest>> file_digest =
-      std::async(std::launch::async, [&file, &seal, &matcher, &is_dev_file] {
-        Result<FileDigest> d = file.Sha256();
-        if (d.ok() && d->size == seal.dev_out_size && d->sha256 == seal.dev_out_sha256) {
-          is_dev_file.store(true);
-          matcher.Stop();
-        } else {
-          matcher.Release();
-        }
-        return d;
-      });
-  std::unique_ptr<MatchBatch> batch = matcher.NewBatch();
-  Status bad_value;
-  // A file with the source's columns in the source's order (a dev file) is read as it is.
-  bool same_order = csv->header().size() == src.columns.size();
-  for (size_t c = 0; c < src.columns.size(); ++c) {
-    same_order = same_order && layout.file_of_source[c] == static_cast<int>(c);
-  }
-  Status s = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
-    if (!same_order) {
-      for (size_t c = 0; c < src.columns.size(); ++c) {
-        int fc = layout.file_of_source[c];
-        canon[c] = fc >= 0 ? (*r.fields)[static_cast<size_t>(fc)] : std::string_view();
-      }
-    }
-    const std::vector<std::string_view>& row = same_order ? *r.fields : canon;
-    // The matcher splits and classifies the record on its thread; once it has stopped (the
-    // file is the dev file), nothing more is handed to it.
-    const bool matching = !matcher.stopped();
-    if (matching) batch->AddRow(r.raw, r.line);
-    if (bad_value.ok()) {
-      bad_value = AppendValues(row, feature_cols, &classes, src.task,
-                               labelled ? std::optional<size_t>(target_col) : std::nullopt,
-                               &out.features, &target);
-      if (bad_value.ok()) {
-        out.lines.push_back(r.line);
-        if (has_id) out.ids.emplace_back(row[*id_col]);
-        if (has_group) out.groups.emplace_back(row[*group_col]);
-      } else {
-        bad_value = Status::InvalidArgument(csv->Location(r.offset) + ": " + bad_value.message());
-      }
-    }
-    if (matching && batch->full()) {
-      matcher.Add(std::move(batch));
-      batch = matcher.NewBatch();
-    }
-    return Status::OK();
-  });
-  if (batch->rows() > 0) matcher.Add(std::move(batch));
+  std::future<Result<FileDigest>> file_digest = HashFile(*csv, seal, &matcher, &is_dev_file);
+  RowReader reader(src, plan, *csv, &matcher, &out);
+  Status read = reader.ReadAll();
   Result<FileDigest> fd = file_digest.get();
   MatchResult matched = matcher.Finish();
   UNSEEN_RETURN_IF_ERROR(matched.status);
-  UNSEEN_RETURN_IF_ERROR(s);
+  UNSEEN_RETURN_IF_ERROR(read);
   if (!fd.ok()) return fd.status();
+
   std::optional<RowSet> dev_set;  // the seal's, when the file is the dev file
   if (is_dev_file.load()) {
-    UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger.GetBlob(seal.dev_set));
-    UNSEEN_ASSIGN_OR_RETURN(dev_set, RowSet::Deserialize(dev_bytes));
-    matched.dev_rows = dev_set->ToVector();
-    matched.holdout_rows = matched.other_rows = 0;
-    matched.first_lines.clear();
-    if (matched.dev_rows.size() != out.lines.size() && bad_value.ok()) {
-      return Status::Corruption(path + ": has the dev file's SHA-256 but " +
-                                std::to_string(out.lines.size()) + " rows, not the " +
-                                std::to_string(matched.dev_rows.size()) + " of the dev row set");
-    }
+    UNSEEN_ASSIGN_OR_RETURN(
+        dev_set, TakeDevRowSet(ledger, seal, path, out, reader.bad_value().ok(), &matched));
   }
-  refusal->holdout_rows = matched.holdout_rows;
-  refusal->not_dev_rows = matched.other_rows;
-  refusal->first_lines = matched.first_lines;
-  std::vector<uint32_t> dev_rows = std::move(matched.dev_rows);
-  if (refusal->holdout_rows > 0 || refusal->not_dev_rows > 0) {
-    std::string lines;
-    for (uint64_t l : refusal->first_lines)
-      lines += (lines.empty() ? "" : ", ") + std::to_string(l);
-    if (refusal->holdout_rows > 0) {
-      return Status::Refused(path + ": " + std::to_string(refusal->holdout_rows) +
-                             " rows match sealed holdout rows (first lines: " + lines +
-                             "); holdout rows may not be used to build models");
-    }
-    return Status::Refused(path + ": " + std::to_string(refusal->not_dev_rows) +
-                           " rows are not development rows of this ledger's source (first lines: " +
-                           lines + "); expected rows from the dev file");
-  }
-  UNSEEN_RETURN_IF_ERROR(bad_value);
+  UNSEEN_RETURN_IF_ERROR(RefuseMatches(path, matched, refusal));
+  UNSEEN_RETURN_IF_ERROR(reader.bad_value());
   if (out.lines.empty()) return Status::InvalidArgument(path + ": no data rows");
+  std::vector<double>& target = reader.target();
   out.target = Eigen::Map<Eigen::VectorXd>(target.data(), static_cast<Eigen::Index>(target.size()));
+  std::vector<uint32_t> dev_rows = std::move(matched.dev_rows);
   if (dev_set) {
     out.rows_read = std::move(*dev_set);
     out.source_rows = std::move(dev_rows);
