@@ -275,7 +275,7 @@ void ExpectUpper(double got, double want, double abs, double rel) {
 }
 
 TEST(ClopperPearsonBoundTest, MatchesGeneratedScipyTable) {
-  // tests/data/bounds/clopper_pearson.csv, written by make_reference.py (scipy 1.10.1
+  // tests/testdata/bounds/clopper_pearson.csv, written by make_reference.py (scipy 1.10.1
   // beta.ppf/isf, each limit checked against mpmath 1.2.1 at 60 digits).
   const auto rows = ReadCsv(testing::TestDataDir() + "/bounds/clopper_pearson.csv");
   ASSERT_EQ(rows.size(), 950u);
@@ -292,7 +292,7 @@ TEST(ClopperPearsonBoundTest, MatchesGeneratedScipyTable) {
 }
 
 TEST(ClopperPearsonBoundTest, MatchesMpmathTableBelowTheDoubleRange) {
-  // tests/data/bounds/clopper_pearson_log_tail.csv, written by make_reference.py (mpmath 1.2.1
+  // tests/testdata/bounds/clopper_pearson_log_tail.csv, written by make_reference.py (mpmath 1.2.1
   // at 60 digits): tails exp(-650) .. exp(-10000), which need the log-space search.
   const auto rows = ReadCsv(testing::TestDataDir() + "/bounds/clopper_pearson_log_tail.csv");
   ASSERT_EQ(rows.size(), 140u);
