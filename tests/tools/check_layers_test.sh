@@ -65,6 +65,12 @@ plant harness/workflow/eval.cc '#include <CLI/CLI.hpp>'
 expect_offence "CLI11 outside cli" \
   "harness/workflow/eval.cc:2: layer workflow includes <CLI/CLI.hpp> (CLI11, only layer cli may)"
 
+# A source file outside the layer folders has no place in the order.
+fresh_copy
+printf '#include "storage/status.h"\n' >"$tmp/tree/harness/stray.cc"
+layers="storage data sampling pipeline bounds ledger evaluate workflow cli"
+expect_offence "file outside the layers" "harness/stray.cc:1: not in a layer folder ($layers)"
+
 # A same-layer include and a downward include are fine.
 fresh_copy
 plant harness/bounds/ladder.cc '#include "harness/bounds/bounds.h"'
