@@ -39,12 +39,12 @@ class LedgerTest : public ::testing::Test {
   // last note with no blobs.
   void MakeLedger() {
     auto ledger = Ledger::Create(Path(), "ann", R"({"name":"test"})");
-    ASSERT_OK(ledger.status());
-    ASSERT_OK((*ledger)->Append("note", "ann", R"({"text":"needle-abcdef"})").status());
+    ASSERT_OK(ledger);
+    ASSERT_OK((*ledger)->Append("note", "ann", R"({"text":"needle-abcdef"})"));
     auto ref = (*ledger)->PutBlob("rows", blob_);
-    ASSERT_OK(ref.status());
-    ASSERT_OK((*ledger)->Append("rows", "ann", R"({"n":3})", {*ref}).status());
-    ASSERT_OK((*ledger)->Append("note", "bob", R"({"text":"last"})").status());
+    ASSERT_OK(ref);
+    ASSERT_OK((*ledger)->Append("rows", "ann", R"({"n":3})", {*ref}));
+    ASSERT_OK((*ledger)->Append("note", "bob", R"({"text":"last"})"));
     ASSERT_OK((*ledger)->Commit());
   }
 
@@ -71,7 +71,7 @@ class LedgerTest : public ::testing::Test {
   // Verify() on the file as it is now; expects Corruption whose message contains `message`.
   void ExpectCorruption(const std::string& message) {
     auto ledger = Ledger::Open(Path(), LedgerMode::kReadOnly);
-    ASSERT_OK(ledger.status());
+    ASSERT_OK(ledger);
     auto report = (*ledger)->Verify();
     ASSERT_FALSE(report.ok()) << "Verify() passed";
     EXPECT_TRUE(report.status().IsCorruption()) << report.status().ToString();
@@ -87,9 +87,9 @@ class LedgerTest : public ::testing::Test {
 
 TEST_F(LedgerTest, CreatedLedgerAppearsOnlyAtCommit) {
   auto ledger = Ledger::Create(Path(), "ann", R"({"name":"test"})");
-  ASSERT_OK(ledger.status());
+  ASSERT_OK(ledger);
   EXPECT_FALSE(Exists(Path()));
-  ASSERT_OK((*ledger)->Append("note", "ann", R"({"text":"hi"})").status());
+  ASSERT_OK((*ledger)->Append("note", "ann", R"({"text":"hi"})"));
   EXPECT_FALSE(Exists(Path()));
   ASSERT_OK((*ledger)->Commit());
   EXPECT_TRUE(Exists(Path()));
@@ -98,7 +98,7 @@ TEST_F(LedgerTest, CreatedLedgerAppearsOnlyAtCommit) {
   auto reopened = OpenLedger(LedgerMode::kReadOnly);
   ASSERT_NE(reopened, nullptr);
   auto entries = reopened->Entries();
-  ASSERT_OK(entries.status());
+  ASSERT_OK(entries);
   ASSERT_EQ(entries->size(), 2u);
   EXPECT_EQ((*entries)[0].seq, 1);
   EXPECT_EQ((*entries)[0].kind, "ledger");
@@ -111,9 +111,9 @@ TEST_F(LedgerTest, CreatedLedgerAppearsOnlyAtCommit) {
 TEST_F(LedgerTest, CreateWithoutCommitLeavesNothingBehind) {
   {
     auto ledger = Ledger::Create(Path(), "ann", "{}");
-    ASSERT_OK(ledger.status());
-    ASSERT_OK((*ledger)->PutBlob("rows", blob_).status());
-    ASSERT_OK((*ledger)->Append("note", "ann", R"({"text":"hi"})").status());
+    ASSERT_OK(ledger);
+    ASSERT_OK((*ledger)->PutBlob("rows", blob_));
+    ASSERT_OK((*ledger)->Append("note", "ann", R"({"text":"hi"})"));
   }
   EXPECT_FALSE(Exists(Path()));
   // No temporary file or journal is left in the directory either.
@@ -142,9 +142,9 @@ TEST_F(LedgerTest, AbandonedTransactionLeavesTheFileByteIdentical) {
     ASSERT_NE(ledger, nullptr);
     ASSERT_OK(ledger->Begin());
     auto ref = ledger->PutBlob("rows", std::string(100000, 'x'));
-    ASSERT_OK(ref.status());
-    ASSERT_OK(ledger->Append("rows", "ann", R"({"n":1})", {*ref}).status());
-    ASSERT_OK(ledger->Append("note", "ann", R"({"text":"gone"})").status());
+    ASSERT_OK(ref);
+    ASSERT_OK(ledger->Append("rows", "ann", R"({"n":1})", {*ref}));
+    ASSERT_OK(ledger->Append("note", "ann", R"({"text":"gone"})"));
   }  // destroyed without Commit()
   EXPECT_EQ(ReadFile(Path()), before);
   EXPECT_FALSE(Exists(Path() + "-journal"));
@@ -156,24 +156,24 @@ TEST_F(LedgerTest, RollbackRestoresTheHeadAndTheFile) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   auto head = ledger->Head();
-  ASSERT_OK(head.status());
+  ASSERT_OK(head);
   ASSERT_OK(ledger->Begin());
   auto added = ledger->Append("note", "ann", R"({"text":"gone"})");
-  ASSERT_OK(added.status());
+  ASSERT_OK(added);
   EXPECT_EQ(added->seq, 5);
   ledger->Rollback();
 
   auto after = ledger->Head();
-  ASSERT_OK(after.status());
+  ASSERT_OK(after);
   EXPECT_EQ(ToHex(*after), ToHex(*head));
   auto contains = ledger->ContainsHash(added->hash);
-  ASSERT_OK(contains.status());
+  ASSERT_OK(contains);
   EXPECT_FALSE(*contains);
   // Append() needs a transaction again; the next entry reuses sequence number 5.
   EXPECT_FALSE(ledger->Append("note", "ann", R"({"text":"x"})").ok());
   ASSERT_OK(ledger->Begin());
   auto next = ledger->Append("note", "ann", R"({"text":"kept"})");
-  ASSERT_OK(next.status());
+  ASSERT_OK(next);
   EXPECT_EQ(next->seq, 5);
   ledger->Rollback();
   ledger.reset();
@@ -214,7 +214,7 @@ TEST_F(LedgerTest, EveryEntryHashesThePreviousHashAndItsBody) {
   auto ledger = OpenLedger(LedgerMode::kReadOnly);
   ASSERT_NE(ledger, nullptr);
   auto entries = ledger->Entries();
-  ASSERT_OK(entries.status());
+  ASSERT_OK(entries);
   ASSERT_EQ(entries->size(), 4u);
   Digest256 prev{};  // the first entry's prev_hash is all zero
   for (size_t i = 0; i < entries->size(); ++i) {
@@ -225,24 +225,24 @@ TEST_F(LedgerTest, EveryEntryHashesThePreviousHashAndItsBody) {
     prev = e.hash;
   }
   auto head = ledger->Head();
-  ASSERT_OK(head.status());
+  ASSERT_OK(head);
   EXPECT_EQ(ToHex(*head), ToHex(prev));
 }
 
 TEST_F(LedgerTest, AppendReturnsTheEntryAsStored) {
   auto ledger = Ledger::Create(Path(), "ann", "{}");
-  ASSERT_OK(ledger.status());
+  ASSERT_OK(ledger);
   auto genesis_head = (*ledger)->Head();
-  ASSERT_OK(genesis_head.status());
+  ASSERT_OK(genesis_head);
   auto e = (*ledger)->Append("note", "ann", R"({"text":"hi"})");
-  ASSERT_OK(e.status());
+  ASSERT_OK(e);
   EXPECT_EQ(e->seq, 2);
   EXPECT_EQ(ToHex(e->prev_hash), ToHex(*genesis_head));
   EXPECT_EQ(ToHex(e->hash), ToHex(ExpectedHash(*genesis_head, e->body)));
   ASSERT_OK((*ledger)->Commit());
 
   auto last = (*ledger)->LastOfKind("note");
-  ASSERT_OK(last.status());
+  ASSERT_OK(last);
   ASSERT_TRUE(last->has_value());
   EXPECT_EQ((*last)->body, e->body);
   EXPECT_EQ(ToHex((*last)->hash), ToHex(e->hash));
@@ -251,32 +251,32 @@ TEST_F(LedgerTest, AppendReturnsTheEntryAsStored) {
 TEST_F(LedgerTest, BodiesAreCanonicalWithSortedKeys) {
   ASSERT_EQ(setenv("UNSEEN_FIXED_TIME", "2026-12-01T22:10:25Z", 1), 0);
   auto ledger = Ledger::Create(Path(), "ann", "{}");
-  ASSERT_OK(ledger.status());
+  ASSERT_OK(ledger);
   auto e = (*ledger)->Append(
       "note", "ann", R"({ "zeta": 1, "alpha": {"b": [2.5, 0.1, "x"], "a": null}, "mid": true })");
   unsetenv("UNSEEN_FIXED_TIME");
-  ASSERT_OK(e.status());
+  ASSERT_OK(e);
   EXPECT_EQ(e->body, std::string(R"({"actor":"ann","alpha":{"a":null,"b":[2.5,0.1,"x"]},)") +
                          R"("blobs":[],"kind":"note","mid":true,"seq":2,)" +
                          R"("time":"2026-12-01T22:10:25Z","tool":"unseen )" + kVersion +
                          R"(","zeta":1})");
   auto canonical = CanonicalJson(e->body);
-  ASSERT_OK(canonical.status());
+  ASSERT_OK(canonical);
   EXPECT_EQ(*canonical, e->body);
 }
 
 TEST_F(LedgerTest, CanonicalJsonSortsKeysAndDropsSpaces) {
   auto c = CanonicalJson(R"( {"b" : [ 1, 0.5 ], "a" : {"y": "é", "x": false}} )");
-  ASSERT_OK(c.status());
+  ASSERT_OK(c);
   EXPECT_EQ(*c, R"({"a":{"x":false,"y":"é"},"b":[1,0.5]})");
   EXPECT_TRUE(CanonicalJson("{not json").status().IsInvalidArgument());
 }
 
 TEST_F(LedgerTest, ReservedKeysAndNonObjectsAreRejected) {
   auto ledger = Ledger::Create(Path(), "ann", "{}");
-  ASSERT_OK(ledger.status());
+  ASSERT_OK(ledger);
   auto head = (*ledger)->Head();
-  ASSERT_OK(head.status());
+  ASSERT_OK(head);
   for (const char* key : {"seq", "kind", "time", "actor", "tool", "blobs"}) {
     auto e = (*ledger)->Append("note", "ann", std::string(R"({")") + key + R"(":1})");
     ASSERT_FALSE(e.ok()) << key;
@@ -287,10 +287,10 @@ TEST_F(LedgerTest, ReservedKeysAndNonObjectsAreRejected) {
   EXPECT_TRUE((*ledger)->Append("note", "ann", "{oops").status().IsInvalidArgument());
   // Nothing was appended.
   auto after = (*ledger)->Head();
-  ASSERT_OK(after.status());
+  ASSERT_OK(after);
   EXPECT_EQ(ToHex(*after), ToHex(*head));
   auto entries = (*ledger)->Entries();
-  ASSERT_OK(entries.status());
+  ASSERT_OK(entries);
   EXPECT_EQ(entries->size(), 1u);
 }
 
@@ -298,19 +298,19 @@ TEST_F(LedgerTest, ReservedKeysAndNonObjectsAreRejected) {
 
 TEST_F(LedgerTest, BlobRoundTripsByItsDigest) {
   auto ledger = Ledger::Create(Path(), "ann", "{}");
-  ASSERT_OK(ledger.status());
+  ASSERT_OK(ledger);
   auto ref = (*ledger)->PutBlob("rows", blob_);
-  ASSERT_OK(ref.status());
+  ASSERT_OK(ref);
   EXPECT_EQ(ToHex(ref->digest), ToHex(Sha256Of(blob_)));
   EXPECT_EQ(ref->kind, "rows");
   EXPECT_EQ(ref->size, 13u);
   // Storing the same bytes again is a no-op that gives the same reference.
   auto again = (*ledger)->PutBlob("rows", blob_);
-  ASSERT_OK(again.status());
+  ASSERT_OK(again);
   EXPECT_EQ(ToHex(again->digest), ToHex(ref->digest));
 
   auto e = (*ledger)->Append("rows", "ann", "{}", {*ref});
-  ASSERT_OK(e.status());
+  ASSERT_OK(e);
   EXPECT_NE(e->body.find(R"("blobs":[{"digest":")" + ToHex(ref->digest) +
                          R"(","kind":"rows","size":13}])"),
             std::string::npos)
@@ -318,22 +318,22 @@ TEST_F(LedgerTest, BlobRoundTripsByItsDigest) {
   ASSERT_OK((*ledger)->Commit());
 
   auto read = (*ledger)->GetBlob(ref->digest);
-  ASSERT_OK(read.status());
+  ASSERT_OK(read);
   EXPECT_EQ(*read, blob_);
   EXPECT_TRUE((*ledger)->GetBlob(Sha256Of("not stored")).status().IsNotFound());
   auto report = (*ledger)->Verify();
-  ASSERT_OK(report.status());
+  ASSERT_OK(report);
   EXPECT_EQ(report->blobs, 1);
   EXPECT_EQ(report->blob_bytes, 13u);
 }
 
 TEST_F(LedgerTest, AppendRefusesAReferenceToAnUnstoredBlob) {
   auto ledger = Ledger::Create(Path(), "ann", "{}");
-  ASSERT_OK(ledger.status());
+  ASSERT_OK(ledger);
   BlobRef missing{Sha256Of("never stored"), "rows", 12};
   EXPECT_FALSE((*ledger)->Append("rows", "ann", "{}", {missing}).ok());
   auto ref = (*ledger)->PutBlob("rows", blob_);
-  ASSERT_OK(ref.status());
+  ASSERT_OK(ref);
   BlobRef wrong_size = *ref;
   wrong_size.size = 14;
   EXPECT_FALSE((*ledger)->Append("rows", "ann", "{}", {wrong_size}).ok());
@@ -361,12 +361,12 @@ TEST_F(LedgerTest, VerifyPassesOnAGoodLedger) {
   auto ledger = OpenLedger(LedgerMode::kReadOnly);
   ASSERT_NE(ledger, nullptr);
   auto report = ledger->Verify();
-  ASSERT_OK(report.status());
+  ASSERT_OK(report);
   EXPECT_EQ(report->entries, 4);
   EXPECT_EQ(report->blobs, 1);
   EXPECT_EQ(report->blob_bytes, 13u);
   auto head = ledger->Head();
-  ASSERT_OK(head.status());
+  ASSERT_OK(head);
   EXPECT_EQ(ToHex(report->head), ToHex(*head));
 }
 
@@ -405,7 +405,7 @@ TEST_F(LedgerTest, DeletionThatRewindsTheSequenceNeedsThePinnedHead) {
     auto ledger = OpenLedger(LedgerMode::kReadOnly);
     ASSERT_NE(ledger, nullptr);
     auto head = ledger->Head();
-    ASSERT_OK(head.status());
+    ASSERT_OK(head);
     pinned = *head;
   }
   Tamper("DELETE FROM entries WHERE seq = 4; UPDATE sqlite_sequence SET seq = 3 "
@@ -413,10 +413,10 @@ TEST_F(LedgerTest, DeletionThatRewindsTheSequenceNeedsThePinnedHead) {
   auto ledger = OpenLedger(LedgerMode::kReadOnly);
   ASSERT_NE(ledger, nullptr);
   auto report = ledger->Verify();
-  ASSERT_OK(report.status());
+  ASSERT_OK(report);
   EXPECT_EQ(report->entries, 3);
   auto contains = ledger->ContainsHash(pinned);
-  ASSERT_OK(contains.status());
+  ASSERT_OK(contains);
   EXPECT_FALSE(*contains);
 }
 
@@ -433,25 +433,25 @@ TEST_F(LedgerTest, HeadIsTheNewestHashAndContainsHashFindsEveryEntry) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   auto entries = ledger->Entries();
-  ASSERT_OK(entries.status());
+  ASSERT_OK(entries);
   for (const Entry& e : *entries) {
     auto contains = ledger->ContainsHash(e.hash);
-    ASSERT_OK(contains.status());
+    ASSERT_OK(contains);
     EXPECT_TRUE(*contains) << "entry " << e.seq;
   }
   auto absent = ledger->ContainsHash(Sha256Of("no entry has this hash"));
-  ASSERT_OK(absent.status());
+  ASSERT_OK(absent);
   EXPECT_FALSE(*absent);
 
   auto head = ledger->Head();
-  ASSERT_OK(head.status());
+  ASSERT_OK(head);
   EXPECT_EQ(ToHex(*head), ToHex(entries->back().hash));
   ASSERT_OK(ledger->Begin());
   auto e = ledger->Append("note", "ann", R"({"text":"newer"})");
-  ASSERT_OK(e.status());
+  ASSERT_OK(e);
   ASSERT_OK(ledger->Commit());
   auto moved = ledger->Head();
-  ASSERT_OK(moved.status());
+  ASSERT_OK(moved);
   EXPECT_EQ(ToHex(*moved), ToHex(e->hash));
   EXPECT_EQ(ToHex(e->prev_hash), ToHex(*head));
 }
@@ -461,12 +461,12 @@ TEST_F(LedgerTest, EntriesOfKindKeepsTheOrder) {
   auto ledger = OpenLedger(LedgerMode::kReadOnly);
   ASSERT_NE(ledger, nullptr);
   auto notes = ledger->EntriesOfKind("note");
-  ASSERT_OK(notes.status());
+  ASSERT_OK(notes);
   ASSERT_EQ(notes->size(), 2u);
   EXPECT_EQ((*notes)[0].seq, 2);
   EXPECT_EQ((*notes)[1].seq, 4);
   auto none = ledger->LastOfKind("seal");
-  ASSERT_OK(none.status());
+  ASSERT_OK(none);
   EXPECT_FALSE(none->has_value());
 }
 
