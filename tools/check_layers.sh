@@ -50,8 +50,9 @@ for file in "${files[@]}"; do
 done
 
 # One grep for the whole tree: FILE:LINE:TEXT for each #include.
+include_re='^([^:]+):([0-9]+):[[:space:]]*#[[:space:]]*include[[:space:]]*([<"])([^>"]*)'
 while IFS= read -r hit; do
-  [[ "$hit" =~ ^([^:]+):([0-9]+):[[:space:]]*#[[:space:]]*include[[:space:]]*([\<\"])([^\>\"]*) ]] || continue
+  [[ "$hit" =~ $include_re ]] || continue
   file="${BASH_REMATCH[1]}" line="${BASH_REMATCH[2]}" quote="${BASH_REMATCH[3]}"
   target="${BASH_REMATCH[4]}"
   layer_of "$file"
