@@ -13,7 +13,7 @@
 
 namespace unseen::cli {
 
-// The exit codes of DESIGN.md; documented in the README.
+// The exit codes, documented in the README ("Exit codes").
 enum class ExitCode : int {
   kOk = 0,
   kRefused = 1,    // refused by a guard (leakage, contamination, budget, already sealed)

@@ -6,7 +6,7 @@ clopper_pearson_log_tail.csv: limits for tails far below the double range
 (exp(-650) .. exp(-10000)), from mpmath alone, for the log-space search.
 
 Run with the Debian python that has scipy and mpmath (/usr/bin/python3):
-    /usr/bin/python3 tests/data/bounds/make_reference.py
+    /usr/bin/python3 tests/testdata/bounds/make_reference.py
 
 Each row is k,n,alpha,lower,upper,source for the two-sided interval at level
 1 - alpha: lower = beta.ppf(alpha/2, k, n-k+1) (0 when k = 0) and

@@ -1,6 +1,6 @@
 // The learners against published reference values: NIST StRD certified
 // linear regressions, and scikit-learn 1.2.1 outputs written by
-// tests/data/sklearn/make_reference.py.
+// tests/testdata/sklearn/make_reference.py.
 #include <gtest/gtest.h>
 
 #include <Eigen/Dense>
@@ -82,8 +82,8 @@ std::unique_ptr<Learner> Make(const std::string& kind, const json& params) {
 }
 
 // ---------------------------------------------------------------------------
-// NIST StRD (certified values: tests/data/nist/certified.json, transcribed from
-// the public copies in tests/data/nist/README.md; docs/references.md, NIST StRD)
+// NIST StRD (certified values: tests/testdata/nist/certified.json, transcribed from
+// the public copies in tests/testdata/nist/README.md; docs/references.md, NIST StRD)
 
 // The least LRE over the coefficients, intercept and residual SD of a fit.
 double CheckNist(const std::string& name, Table t) {
@@ -132,7 +132,7 @@ TEST(NistLinearTest, LongleyResidualStatisticsAreReported) {
 }
 
 // ---------------------------------------------------------------------------
-// scikit-learn 1.2.1 (tests/data/sklearn/learner_reference.json)
+// scikit-learn 1.2.1 (tests/testdata/sklearn/learner_reference.json)
 
 class SklearnReferenceTest : public ::testing::Test {
  protected:

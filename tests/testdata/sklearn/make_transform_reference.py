@@ -2,7 +2,7 @@
 """Writes the scikit-learn reference outputs the transform tests compare to.
 
 Run with the Debian python that has scikit-learn 1.2.1 (/usr/bin/python3):
-    /usr/bin/python3 tests/data/sklearn/make_transform_reference.py
+    /usr/bin/python3 tests/testdata/sklearn/make_transform_reference.py
 
 Inputs are the datasets bundled inside the Debian python3-sklearn package
 (sklearn.datasets.load_wine() and load_diabetes() read files shipped with the
@@ -157,7 +157,7 @@ def main():
 
     reference = {
         "provenance": {
-            "script": "tests/data/sklearn/make_transform_reference.py",
+            "script": "tests/testdata/sklearn/make_transform_reference.py",
             "sklearn_version": sklearn.__version__,
             "numpy_version": np.__version__,
             "python_version": platform.python_version(),

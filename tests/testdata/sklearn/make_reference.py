@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Writes the scikit-learn reference outputs that tests/harness/learners_test.cc checks.
+"""Writes the scikit-learn reference outputs that tests/pipeline/learners_reference_test.cc checks.
 
 Run with Debian's python (python3-sklearn 1.2.1): /usr/bin/python3 make_reference.py
 It uses only datasets bundled in the sklearn package (no download), writes the exact data it used
@@ -70,7 +70,7 @@ def knn_ties(X_train, X_query, k):
 def main():
     ref = {
         "provenance": {
-            "generator": "tests/data/sklearn/make_reference.py",
+            "generator": "tests/testdata/sklearn/make_reference.py",
             "sklearn": sklearn.__version__,
             "numpy": np.__version__,
             "scipy": scipy.__version__,

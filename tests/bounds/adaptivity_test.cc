@@ -10,13 +10,14 @@ namespace unseen {
 namespace {
 
 TEST(LogHypothesesTest, BatchFrozenBeforeAnyRevealCostsItsSize) {
-  // A batch of M models with r_j = 0 each: H = M (the brief's check value ln 3).
+  // A batch of M models with r_j = 0 each: H = M, so ln 3 for three (closed form;
+  // docs/references.md, Reveal counting).
   EXPECT_NEAR(LogHypotheses({0, 0, 0}, 1001), std::log(3.0), 1e-15);
   EXPECT_NEAR(LogHypotheses(std::vector<uint64_t>(100, 0), 11), std::log(100.0), 1e-14);
 }
 
 TEST(LogHypothesesTest, EachRevealMultipliesByTheResolution) {
-  // r = {0, 1, 2}, R = 11: H = 1 + 11 + 121 (the brief's check value).
+  // r = {0, 1, 2}, R = 11: H = 1 + 11 + 121 (closed form; docs/references.md, Reveal counting).
   EXPECT_NEAR(LogHypotheses({0, 1, 2}, 11), std::log(1.0 + 11 + 121), 1e-14);
   EXPECT_NEAR(LogHypotheses({2, 0, 1}, 11), std::log(133.0), 1e-14);  // order does not matter
 }

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Writes the reference values that tests/harness/blend_test.cc checks.
+"""Writes the reference values that tests/pipeline/blend_test.cc checks.
 
 Run with Debian's python (python3-scipy 1.10.1, python3-numpy 1.24.2):
     /usr/bin/python3 make_nnls_reference.py
@@ -75,7 +75,7 @@ def main():
 
     out = {
         "provenance": {
-            "script": "tests/data/blend/make_nnls_reference.py",
+            "script": "tests/testdata/blend/make_nnls_reference.py",
             "python": platform.python_version(),
             "numpy": np.__version__,
             "scipy": scipy.__version__,

@@ -1,6 +1,6 @@
 // Blend arithmetic: non-negative least squares against scipy.optimize.nnls,
 // blend weights against numpy.linalg.lstsq and scipy (reference values
-// written by tests/data/blend/make_nnls_reference.py with Debian's scipy
+// written by tests/testdata/blend/make_nnls_reference.py with Debian's scipy
 // 1.10.1 and numpy 1.24.2), the KKT conditions on seeded random problems,
 // clipping, cross-validated contributions, the blend spec table and
 // applying a frozen blend.

@@ -19,7 +19,8 @@ namespace {
 // The check values below are printed with 10 decimals (docs/references.md); half a unit in the
 // last place plus slack.
 constexpr double kTenDecimals = 1e-10;
-// The tolerance the brief sets for Clopper–Pearson against scipy and R.
+// The tolerance for Clopper–Pearson limits against scipy and R, a project choice
+// (docs/references.md, opening section).
 constexpr double kCpTolerance = 1e-9;
 
 BoundRequest Request(BoundMethod method, uint64_t n, double mean, double delta, double log_h) {
@@ -275,7 +276,7 @@ void ExpectUpper(double got, double want, double abs, double rel) {
 }
 
 TEST(ClopperPearsonBoundTest, MatchesGeneratedScipyTable) {
-  // tests/data/bounds/clopper_pearson.csv, written by make_reference.py (scipy 1.10.1
+  // tests/testdata/bounds/clopper_pearson.csv, written by make_reference.py (scipy 1.10.1
   // beta.ppf/isf, each limit checked against mpmath 1.2.1 at 60 digits).
   const auto rows = ReadCsv(testing::TestDataDir() + "/bounds/clopper_pearson.csv");
   ASSERT_EQ(rows.size(), 950u);
@@ -292,7 +293,7 @@ TEST(ClopperPearsonBoundTest, MatchesGeneratedScipyTable) {
 }
 
 TEST(ClopperPearsonBoundTest, MatchesMpmathTableBelowTheDoubleRange) {
-  // tests/data/bounds/clopper_pearson_log_tail.csv, written by make_reference.py (mpmath 1.2.1
+  // tests/testdata/bounds/clopper_pearson_log_tail.csv, written by make_reference.py (mpmath 1.2.1
   // at 60 digits): tails exp(-650) .. exp(-10000), which need the log-space search.
   const auto rows = ReadCsv(testing::TestDataDir() + "/bounds/clopper_pearson_log_tail.csv");
   ASSERT_EQ(rows.size(), 140u);
@@ -344,7 +345,8 @@ TEST(ClopperPearsonBoundTest, UnderflowingAlphaStillGivesAnIntervalInsideHoeffdi
   }
 }
 
-// The exact binomial tails, summed term by term (the plain reference of STYLE.md G12).
+// The exact binomial tails, summed term by term: the plain reference with no outside values
+// (docs/references.md, Clopper–Pearson).
 long double BinomialAtLeast(int k, int n, long double p) {
   long double total = 0, choose = 1;
   for (int j = 0; j <= n; ++j) {
@@ -473,7 +475,8 @@ TEST(BernsteinBoundTest, RawSpreadUsesVarianceButRangeScalesTheSecondTerm) {
   r.variance = 4.0;
   Result<Bound> b = ComputeBound(r);
   ASSERT_OK(b);
-  const double l = std::log(4 * 7 / 0.05);  // closed form of the brief
+  // ln(4H/δ), the two-sided closed form (docs/references.md, Empirical Bernstein).
+  const double l = std::log(4 * 7 / 0.05);
   EXPECT_NEAR(b->half_width_raw, std::sqrt(2 * 4.0 * l / 500) + 70 * l / (3 * 499.0), 1e-14);
 }
 

@@ -19,10 +19,12 @@ namespace {
 using nlohmann::json;
 
 // Every value marked "sklearn 1.2.1" comes from
-// tests/data/sklearn/transform_reference.json, written by
-// tests/data/sklearn/make_transform_reference.py with Debian
+// tests/testdata/sklearn/transform_reference.json, written by
+// tests/testdata/sklearn/make_transform_reference.py with Debian
 // python3-sklearn 1.2.1 on its bundled wine and diabetes datasets.
-constexpr double kTolerance = 1e-6;  // the tolerance the brief sets against scikit-learn
+// Against scikit-learn; a project choice (docs/references.md, "Not traced to a published
+// source": the test tolerances).
+constexpr double kTolerance = 1e-6;
 
 const std::string& DataDir() {
   static const std::string dir = testing::TestDataDir() + "/sklearn/";

@@ -20,7 +20,7 @@ namespace {
 
 // Golden values marked "Python reference" were computed with the independent
 // Python xoshiro256**/Lemire/Fisher-Yates implementation written out in
-// tests/harness/random_test.cc, applying the rules of docs/splits.md by hand.
+// tests/sampling/random_test.cc, applying the rules of docs/splits.md by hand.
 
 SplitRequest Request(SplitStrategy strategy, uint64_t rows, double fraction, uint64_t seed = 0) {
   SplitRequest r;
