@@ -42,7 +42,9 @@ Result<std::pair<double, double>> ParseRange(const std::string& text) {
 
 std::string Num(double v) { return fmt::format("{:.6g}", v); }
 
-nlohmann::json AnswerJson(const EvalAnswer& a) {
+// One answer as `eval --json` prints it (the ledger's form is EvalAnswerRecord in
+// harness/ledger/entries.h: it adds log_values, and keeps no assumptions).
+nlohmann::json AnswerReportJson(const EvalAnswer& a) {
   return {{"model", a.model},
           {"kind", a.kind},
           {"model_digest", ToHex(a.model_digest)},
@@ -190,7 +192,7 @@ Runner SetupEval(CLI::App& app) {
       // One object per model; the batch's totals are repeated in each.
       nlohmann::json out = nlohmann::json::array();
       for (const EvalAnswer& a : r.answers) {
-        nlohmann::json j = AnswerJson(a);
+        nlohmann::json j = AnswerReportJson(a);
         j["queries_spent"] = r.queries_spent;
         j["budget"] = r.budget;
         j["budget_raises"] = r.budget_raises;

@@ -1,5 +1,6 @@
-// A registered source: the facts `init` learns about a CSV file, and the
-// JSON form in which the ledger's `source` entry keeps them.
+// A registered source: the facts `init` learns about a CSV file, and their
+// JSON form (the ledger's `source` entry keeps it; harness/ledger/entries.h
+// reads it back).
 // Plain values; thread-compatible.
 #ifndef UNSEEN_HARNESS_DATA_SOURCE_H_
 #define UNSEEN_HARNESS_DATA_SOURCE_H_
@@ -8,6 +9,7 @@
 #include <map>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "storage/digest.h"
@@ -25,6 +27,10 @@ enum class TaskKind { kClassification, kRegression };
 const char* ColumnTypeName(ColumnType t);
 const char* ColumnRoleName(ColumnRole r);
 const char* TaskKindName(TaskKind t);
+// The inverses of the names above. Unknown names read as categorical and
+// feature, as ledgers have always been read.
+ColumnType ColumnTypeFromName(std::string_view name);
+ColumnRole ColumnRoleFromName(std::string_view name);
 Result<TaskKind> ParseTaskKind(std::string_view name);
 
 struct ColumnInfo {
@@ -69,8 +75,6 @@ struct SourceInfo {
 
 // The `source` entry's fields (a JSON object text), without blob references.
 std::string SourceToJson(const SourceInfo& s);
-// Reads them back. Corruption if a field is missing or malformed.
-Result<SourceInfo> SourceFromJson(const std::string& json);
 
 }  // namespace unseen
 

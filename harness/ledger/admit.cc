@@ -395,13 +395,16 @@ Status RecordRefusal(const std::string& ledger_path, const std::string& actor,
                      const std::string& details_json) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(ledger_path, LedgerMode::kReadWrite));
   UNSEEN_RETURN_IF_ERROR(ledger->Begin());
-  nlohmann::json fields = {{"command", command},
-                           {"code", static_cast<int>(reason.code())},
-                           {"reason", reason.message()},
-                           {"details", nlohmann::json::parse(details_json)},
-                           {"summary", command + " refused: " + reason.message()}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("refusal", actor, fields.dump()));
-  (void)e;
+  RefusalBody refusal;
+  refusal.command = command;
+  refusal.code = static_cast<int>(reason.code());
+  refusal.reason = reason.message();
+  refusal.details = nlohmann::json::parse(details_json, nullptr, /*allow_exceptions=*/false);
+  if (refusal.details.is_discarded()) {
+    return Status::Internal("refusal of " + command + ": its details are not JSON");
+  }
+  refusal.summary = command + " refused: " + reason.message();
+  UNSEEN_RETURN_IF_ERROR(AppendEntry(ledger.get(), actor, refusal).status());
   return ledger->Commit();
 }
 

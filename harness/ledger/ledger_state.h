@@ -8,19 +8,14 @@
 #include <string>
 
 #include "harness/data/source.h"
+#include "harness/ledger/entries.h"
 #include "storage/ledger.h"
 #include "storage/seal_crypto.h"
 
 namespace unseen {
 
-// How the seal key was obtained; kept in the seal entry (never the key).
-struct KeyInfo {
-  std::string source = "key-file";  // "key-file" or "passphrase"
-  ScryptParams scrypt;              // for "passphrase"
-  std::string salt_hex;             // for "passphrase"
-  std::string key_check_hex;        // KeyCheck(key, ledger_id)
-};
-
+// The seal entry's fields the commands use (entries.h has the whole body),
+// with the budget raised by every later `budget` entry.
 struct SealInfo {
   int64_t entry_seq = 0;
   std::string strategy;
@@ -53,8 +48,9 @@ struct LedgerState {
   Digest256 head{};
 };
 
-// Reads the state. Corruption if the genesis or source entry is missing or
-// malformed (run `unseen verify` for the full check).
+// Reads the state. Corruption if the genesis or source entry is missing, or
+// a genesis, source, seal, budget or eval entry is malformed (run `unseen
+// verify` for the full check).
 Result<LedgerState> ReadLedgerState(const Ledger& ledger);
 
 // The AAD that binds a sealed blob to its ledger and holdout.

@@ -22,8 +22,8 @@ struct Lineage {
 };
 
 // Walks the lineage of the model frozen by entry `fit_seq`, whose frozen
-// JSON is `model`. Corruption when an entry it names is missing or
-// malformed.
+// JSON is `model`. Corruption when an entry it names is missing, malformed,
+// or not a fit, select or partition entry.
 Result<Lineage> TraceLineage(const Ledger& ledger, const LedgerState& state, int64_t fit_seq,
                              const nlohmann::json& model);
 

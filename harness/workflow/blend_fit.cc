@@ -12,6 +12,7 @@
 
 #include "harness/sampling/folds.h"
 #include "harness/pipeline/blend.h"
+#include "harness/ledger/entries.h"
 #include "harness/workflow/carve.h"
 #include "harness/workflow/fit_steps.h"
 #include "harness/workflow/models.h"
@@ -68,28 +69,25 @@ Result<std::vector<Member>> LoadMembers(const Ledger& ledger, const PipelineSpec
 
 // The rows read by the fit entry `seq` and, for a blend, by its members'
 // fits, recursively.
-Result<RowSet> LineageRows(const Ledger& ledger, const std::map<int64_t, json>& fits, int64_t seq,
-                           int depth) {
+Result<RowSet> LineageRows(const Ledger& ledger, const std::map<int64_t, FitBody>& fits,
+                           int64_t seq, int depth) {
   auto it = fits.find(seq);
   if (it == fits.end() || depth > kMaxLineageDepth) {
     return Status::Corruption("fit entry " + std::to_string(seq) +
                               " is missing or nested too deep");
   }
-  RowSet rows;
-  try {
-    UNSEEN_ASSIGN_OR_RETURN(Digest256 d,
-                            Digest256FromHex(it->second.at("rows_read").get<std::string>()));
-    UNSEEN_ASSIGN_OR_RETURN(std::string bytes, ledger.GetBlob(d));
-    UNSEEN_ASSIGN_OR_RETURN(rows, RowSet::Deserialize(bytes));
-    if (it->second.contains("blend")) {
-      for (const json& m : it->second.at("blend").at("members")) {
-        UNSEEN_ASSIGN_OR_RETURN(
-            RowSet more, LineageRows(ledger, fits, m.at("fit_entry").get<int64_t>(), depth + 1));
-        rows = rows.Or(more);
-      }
+  const FitBody& fit = it->second;
+  if (!fit.rows_read) {
+    return Status::Corruption("entry " + std::to_string(seq) +
+                              " (fit): key 'rows_read' is missing");
+  }
+  UNSEEN_ASSIGN_OR_RETURN(std::string bytes, ledger.GetBlob(*fit.rows_read));
+  UNSEEN_ASSIGN_OR_RETURN(RowSet rows, RowSet::Deserialize(bytes));
+  if (fit.blend) {
+    for (const BlendMemberRecord& m : fit.blend->members) {
+      UNSEEN_ASSIGN_OR_RETURN(RowSet more, LineageRows(ledger, fits, m.fit_entry, depth + 1));
+      rows = rows.Or(more);
     }
-  } catch (const std::exception& e) {
-    return Status::Corruption("fit entry " + std::to_string(seq) + " is malformed: " + e.what());
   }
   return rows;
 }
@@ -106,14 +104,9 @@ std::string RowList(const std::vector<uint32_t>& rows) {
 // or read rows of the partition.
 Status CheckLineage(const FitRequest& req, const std::vector<Member>& members,
                     const NamedPartition& part, Ledger* ledger) {
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> entries, ledger->EntriesOfKind("fit"));
-  std::map<int64_t, json> fits;
-  for (const Entry& e : entries) {
-    fits[e.seq] = json::parse(e.body, nullptr, /*allow_exceptions=*/false);
-    if (fits[e.seq].is_discarded()) {
-      return Status::Corruption("entry " + std::to_string(e.seq) + " (fit) is not JSON");
-    }
-  }
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<FitBody>> entries, ReadEntries<FitBody>(*ledger));
+  std::map<int64_t, FitBody> fits;
+  for (Decoded<FitBody>& f : entries) fits[f.entry.seq] = std::move(f.body);
   std::string problems;
   json details = json::array();
   for (const Member& m : members) {
@@ -271,7 +264,8 @@ Result<FitReport> FitBlend(const FitRequest& req, const LedgerState& st, const P
   br.nonnegative = b.nonnegative;
   br.intercept = weights.intercept;
   br.loss_all = contrib.loss_all;
-  json member_json = json::array();
+  json member_json = json::array();  // the frozen model's members
+  FitBody::Blend blend;               // and the fit entry's
   for (size_t i = 0; i < members.size(); ++i) {
     const ModelSummary& s = members[i].summary;
     BlendMemberReport m{s.name,
@@ -286,6 +280,8 @@ Result<FitReport> FitBlend(const FitRequest& req, const LedgerState& st, const P
                            {"weight", m.weight},
                            {"loss_without", m.loss_without},
                            {"contribution", m.contribution}});
+    blend.members.push_back(
+        {m.name, m.digest, m.fit_entry, m.weight, m.loss_without, m.contribution});
     br.members.push_back(m);
   }
 
@@ -322,33 +318,29 @@ Result<FitReport> FitBlend(const FitRequest& req, const LedgerState& st, const P
     blobs.push_back(r);
     fold_digests.push_back(ToHex(r.digest));
   }
+  // The entry's contributions name the fold row sets too; the frozen model's do not.
   contributions_json["fold_row_sets"] = fold_digests;
-  json parents = json::array();
-  for (const Member& m : members) parents.push_back(m.summary.fit_entry);
-  parents.push_back(part.entry_seq);
+  blend.intercept = weights.intercept;
+  blend.nonnegative = b.nonnegative;
+  blend.partition = {part.name, part.entry_seq, part.row_set};
+  blend.contributions = contributions_json;
   report.model_digest = model_ref.digest;
-  json fit = {{"model", req.name},
-              {"model_digest", ToHex(model_ref.digest)},
-              {"spec", ToHex(spec_ref.digest)},
-              {"data", {{"path", data}, {"sha256", ToHex(d.file_sha256)}}},
-              {"rows_read", ToHex(rows_ref.digest)},
-              {"rows", report.rows},
-              {"parents", parents},
-              {"candidates_compared", 1},
-              {"settings", json::object()},
-              {"learner", kBlendKind},
-              {"blend",
-               {{"members", member_json},
-                {"intercept", weights.intercept},
-                {"nonnegative", b.nonnegative},
-                {"partition", partition_json},
-                {"contributions", contributions_json}}},
-              {"holdout_rows_read", 0},
-              {"tainted", false},
-              {"summary", "froze blend " + req.name + " of " + std::to_string(members.size()) +
-                              " members on partition " + part.name + " (" +
-                              std::to_string(report.rows) + " rows)"}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry fe, ledger->Append("fit", req.actor, fit.dump(), blobs));
+  FitBody fit;
+  fit.model = req.name;
+  fit.model_digest = model_ref.digest;
+  fit.spec = spec_ref.digest;
+  fit.data = {data, d.file_sha256};
+  fit.rows_read = rows_ref.digest;
+  fit.rows = report.rows;
+  for (const Member& m : members) fit.parents.push_back(m.summary.fit_entry);
+  fit.parents.push_back(part.entry_seq);
+  fit.candidates_compared = 1;
+  fit.learner = kBlendKind;
+  fit.blend = std::move(blend);
+  fit.summary = "froze blend " + req.name + " of " + std::to_string(members.size()) +
+                " members on partition " + part.name + " (" + std::to_string(report.rows) +
+                " rows)";
+  UNSEEN_ASSIGN_OR_RETURN(Entry fe, AppendEntry(ledger, req.actor, fit, blobs));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.blend = std::move(br);
   report.head = fe.hash;

@@ -1,7 +1,6 @@
 #include "harness/workflow/budget.h"
 
-#include <nlohmann/json.hpp>
-
+#include "harness/ledger/entries.h"
 #include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 
@@ -25,16 +24,16 @@ Result<BudgetReport> RaiseBudget(const BudgetRequest& req) {
   BudgetReport report;
   report.budget = before + req.add_queries;
   report.used = st.holdout_queries;
-  nlohmann::json fields = {
-      {"add_queries", req.add_queries},
-      {"budget_before", before},
-      {"budget_after", report.budget},
-      {"queries_used", st.holdout_queries},
-      {"reason", req.reason},
-      {"parents", {st.seal->entry_seq}},
-      {"summary", "raised the holdout budget from " + std::to_string(before) + " to " +
-                      std::to_string(report.budget) + " queries: " + req.reason}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("budget", req.actor, fields.dump()));
+  BudgetBody body;
+  body.add_queries = req.add_queries;
+  body.budget_before = before;
+  body.budget_after = report.budget;
+  body.queries_used = st.holdout_queries;
+  body.reason = req.reason;
+  body.parents = {st.seal->entry_seq};
+  body.summary = "raised the holdout budget from " + std::to_string(before) + " to " +
+                 std::to_string(report.budget) + " queries: " + req.reason;
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, AppendEntry(ledger.get(), req.actor, body));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.head = e.hash;
   return report;

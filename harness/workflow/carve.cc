@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cctype>
 #include <nlohmann/json.hpp>
+#include <optional>
 #include <unordered_map>
 #include <utility>
 
@@ -10,6 +11,7 @@
 #include "harness/data/source_scan.h"
 #include "harness/sampling/split.h"
 #include "harness/ledger/admit.h"
+#include "harness/ledger/entries.h"
 #include "harness/ledger/ledger_state.h"
 
 namespace unseen {
@@ -36,20 +38,14 @@ Status CheckPartitionName(const std::string& name) {
   return Status::OK();
 }
 
-Result<NamedPartition> PartitionFromEntry(const Ledger& ledger, const Entry& e) {
+Result<NamedPartition> PartitionFromEntry(const Ledger& ledger, const Decoded<PartitionBody>& e) {
   NamedPartition p;
-  try {
-    json b = json::parse(e.body);
-    p.name = b.at("name").get<std::string>();
-    p.entry_seq = e.seq;
-    p.strategy = b.at("strategy").get<std::string>();
-    p.fraction = b.at("fraction").get<double>();
-    p.seed = b.at("seed").get<uint64_t>();
-    UNSEEN_ASSIGN_OR_RETURN(p.row_set, Digest256FromHex(b.at("row_set").get<std::string>()));
-  } catch (const std::exception& ex) {
-    return Status::Corruption("entry " + std::to_string(e.seq) +
-                              " (partition) is malformed: " + ex.what());
-  }
+  p.name = e.body.name;
+  p.entry_seq = e.entry.seq;
+  p.strategy = e.body.strategy;
+  p.fraction = e.body.fraction;
+  p.seed = e.body.seed;
+  p.row_set = e.body.row_set;
   UNSEEN_ASSIGN_OR_RETURN(std::string bytes, ledger.GetBlob(p.row_set));
   UNSEEN_ASSIGN_OR_RETURN(p.rows, RowSet::Deserialize(bytes));
   return p;
@@ -69,7 +65,8 @@ std::string PartitionNote(std::string note) {
 // The split request over the dev rows (index i = the i-th dev row): group
 // indexes when the source has groups, else class indexes when stratified.
 Result<SplitRequest> DevSplitRequest(const CarveRequest& req, const LedgerState& st,
-                                     const std::vector<uint32_t>& dev_rows, json* labels_from) {
+                                     const std::vector<uint32_t>& dev_rows,
+                                     std::optional<PartitionBody::LabelsFrom>* labels_from) {
   const SourceInfo& src = st.source;
   SplitRequest split;
   split.fraction = req.fraction;
@@ -110,17 +107,17 @@ Result<SplitRequest> DevSplitRequest(const CarveRequest& req, const LedgerState&
   if (next != dev_rows.size()) {
     return Status::InvalidArgument(data + ": has fewer rows than the registered source");
   }
-  *labels_from = {
-      {"path", data}, {"sha256", ToHex(fd.sha256)}, {"column", src.columns[column].name}};
+  *labels_from = PartitionBody::LabelsFrom{data, fd.sha256, src.columns[column].name};
   return split;
 }
 
 }  // namespace
 
 Result<std::vector<NamedPartition>> ListPartitions(const Ledger& ledger) {
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> entries, ledger.EntriesOfKind("partition"));
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<PartitionBody>> entries,
+                          ReadEntries<PartitionBody>(ledger));
   std::vector<NamedPartition> out;
-  for (const Entry& e : entries) {
+  for (const Decoded<PartitionBody>& e : entries) {
     UNSEEN_ASSIGN_OR_RETURN(NamedPartition p, PartitionFromEntry(ledger, e));
     out.push_back(std::move(p));
   }
@@ -167,8 +164,9 @@ Result<CarveReport> CarvePartition(const CarveRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger->GetBlob(st.seal->dev_set));
   UNSEEN_ASSIGN_OR_RETURN(RowSet dev, RowSet::Deserialize(dev_bytes));
   std::vector<uint32_t> dev_rows = dev.ToVector();
-  json labels_from = nullptr;
-  UNSEEN_ASSIGN_OR_RETURN(SplitRequest split, DevSplitRequest(req, st, dev_rows, &labels_from));
+  PartitionBody body;
+  UNSEEN_ASSIGN_OR_RETURN(SplitRequest split,
+                          DevSplitRequest(req, st, dev_rows, &body.labels_from));
   Result<SplitResult> carved = Split(split);
   if (!carved.ok()) {
     return Status::InvalidArgument("carve: " + carved.status().message());
@@ -188,21 +186,19 @@ Result<CarveReport> CarvePartition(const CarveRequest& req) {
   report.note = PartitionNote(carved->note);
   UNSEEN_ASSIGN_OR_RETURN(BlobRef ref, ledger->PutBlob("row-set", p.rows.Serialize()));
   p.row_set = ref.digest;
-  json fields = {
-      {"name", p.name},
-      {"strategy", p.strategy},
-      {"fraction", p.fraction},
-      {"seed", p.seed},
-      {"rows", rows.size()},
-      {"dev_rows", report.dev_rows},
-      {"requested", report.requested},
-      {"note", report.note},
-      {"row_set", ToHex(ref.digest)},
-      {"labels_from", labels_from},
-      {"parents", {st.seal->entry_seq}},
-      {"summary", "carved partition " + p.name + " (" + std::to_string(rows.size()) + " of " +
-                      std::to_string(report.dev_rows) + " dev rows, " + p.strategy + ")"}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("partition", req.actor, fields.dump(), {ref}));
+  body.name = p.name;
+  body.strategy = p.strategy;
+  body.fraction = p.fraction;
+  body.seed = p.seed;
+  body.rows = rows.size();
+  body.dev_rows = report.dev_rows;
+  body.requested = report.requested;
+  body.note = report.note;
+  body.row_set = ref.digest;
+  body.parents = {st.seal->entry_seq};
+  body.summary = "carved partition " + p.name + " (" + std::to_string(rows.size()) + " of " +
+                 std::to_string(report.dev_rows) + " dev rows, " + p.strategy + ")";
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, AppendEntry(ledger.get(), req.actor, body, {ref}));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   p.entry_seq = e.seq;
   report.head = e.hash;

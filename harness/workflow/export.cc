@@ -1,20 +1,16 @@
 #include "harness/workflow/export.h"
 
-#include <nlohmann/json.hpp>
-
 #include "harness/data/csv.h"
 #include "harness/data/source_scan.h"
 #include "harness/sampling/folds.h"
 #include "harness/ledger/admit.h"
+#include "harness/ledger/entries.h"
 #include "harness/ledger/ledger_state.h"
 #include "storage/staged_file.h"
 #include "storage/ledger.h"
 #include "storage/row_set.h"
 
 namespace unseen {
-
-using json = nlohmann::json;
-
 
 Result<ExportReport> ExportRows(const ExportRequest& req) {
   if (req.folds == 1 || req.folds < 0) return Status::InvalidArgument("--folds: expected 2 or more");
@@ -95,26 +91,25 @@ Result<ExportReport> ExportRows(const ExportRequest& req) {
   report.all = {req.out_path, {}, dev_rows.size(), st.seal->dev_set};
   UNSEEN_RETURN_IF_ERROR(all.Close(&report.all.sha256));
   std::vector<BlobRef> blobs;
-  json folds = json::array();
+  ExportBody body;
   for (int k = 0; k < req.folds; ++k) {
     ExportedFile f{req.out_dir + "/fold_" + std::to_string(k + 1) + ".csv", {}, fold_rows[static_cast<size_t>(k)].size(), {}};
     UNSEEN_RETURN_IF_ERROR(fold_files[static_cast<size_t>(k)]->Close(&f.sha256));
     UNSEEN_ASSIGN_OR_RETURN(BlobRef ref, ledger->PutBlob("row-set", RowSet::FromSorted(fold_rows[static_cast<size_t>(k)]).Serialize()));
     blobs.push_back(ref);
     f.row_set = ref.digest;
-    folds.push_back({{"path", f.path}, {"sha256", ToHex(f.sha256)}, {"rows", f.rows}, {"row_set", ToHex(ref.digest)}});
+    body.folds.push_back({f.path, f.sha256, f.rows, f.row_set});
     report.folds.push_back(f);
   }
-  json fields = {{"out", {{"path", req.out_path}, {"sha256", ToHex(report.all.sha256)}}},
-                 {"rows", report.all.rows},
-                 {"row_set", ToHex(st.seal->dev_set)},
-                 {"row_column", add_row ? json(kRowColumn) : json(nullptr)},
-                 {"folds", folds},
-                 {"seed", req.seed},
-                 {"parents", {st.seal->entry_seq}},
-                 {"summary", "exported " + std::to_string(report.all.rows) + " dev rows" +
-                             (req.folds > 0 ? " in " + std::to_string(req.folds) + " folds" : std::string())}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("export", req.actor, fields.dump(), blobs));
+  body.out = {req.out_path, report.all.sha256};
+  body.rows = report.all.rows;
+  body.row_set = st.seal->dev_set;
+  if (add_row) body.row_column = kRowColumn;
+  body.seed = req.seed;
+  body.parents = {st.seal->entry_seq};
+  body.summary = "exported " + std::to_string(report.all.rows) + " dev rows" +
+                 (req.folds > 0 ? " in " + std::to_string(req.folds) + " folds" : std::string());
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, AppendEntry(ledger.get(), req.actor, body, blobs));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   UNSEEN_RETURN_IF_ERROR(all.MoveIntoPlace());
   for (auto& f : fold_files) UNSEEN_RETURN_IF_ERROR(f->MoveIntoPlace());

@@ -10,6 +10,7 @@
 #include "harness/pipeline/spec.h"
 #include "harness/workflow/carve.h"
 #include "harness/ledger/admit.h"
+#include "harness/ledger/entries.h"
 #include "harness/workflow/fit_steps.h"
 #include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
@@ -50,11 +51,12 @@ Eigen::VectorXd Pick(const Eigen::VectorXd& y, const std::vector<size_t>& rows) 
 }
 
 Status NameIsFree(const Ledger& ledger, const std::string& name) {
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> fits, ledger.EntriesOfKind("fit"));
-  for (const Entry& e : fits) {
-    if (json::parse(e.body).value("model", std::string()) == name) {
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<FitBody>> fits, ReadEntries<FitBody>(ledger));
+  for (const Decoded<FitBody>& f : fits) {
+    if (f.body.model == name) {
       return Status::InvalidArgument("--name: a model named '" + name + "' already exists (entry " +
-                                     std::to_string(e.seq) + "); frozen models are never replaced");
+                                     std::to_string(f.entry.seq) +
+                                     "); frozen models are never replaced");
     }
   }
   return Status::OK();
@@ -298,58 +300,54 @@ Result<FitReport> FitModel(const FitRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(BlobRef rows_ref, ledger->PutBlob("row-set", d.rows_read.Serialize()));
   report.model_digest = model_ref.digest;
 
-  json parents = {st.seal->entry_seq};
+  std::vector<int64_t> parents = {st.seal->entry_seq};
   if (excluded) parents.push_back(excluded->entry_seq);
   if (report.selection != "none") {
     std::vector<BlobRef> fold_refs = {rows_ref};
-    json fold_digests = json::array();
+    SelectBody sel;
     for (const RowSet& s : internal::FoldRowSets(d, fold, k)) {
       UNSEEN_ASSIGN_OR_RETURN(BlobRef r, ledger->PutBlob("row-set", s.Serialize()));
       fold_refs.push_back(r);
-      fold_digests.push_back(ToHex(r.digest));
+      sel.fold_row_sets.push_back(r.digest);
     }
-    json sel = {{"model", req.name},
-                {"metric", report.metric},
-                {"selection", report.selection},
-                {"folds", k},
-                {"seed", seed},
-                {"fold_row_sets", fold_digests},
-                {"rows_read", ToHex(rows_ref.digest)},
-                {"candidates", ScoresJson(report)},
-                {"chosen", report.chosen},
-                {"parents", parents},
-                {"summary", "selected candidate " + std::to_string(report.chosen) + " of " +
-                                std::to_string(cands.size()) + " for " + req.name + " by " +
-                                report.selection + " " + report.metric}};
-    UNSEEN_ASSIGN_OR_RETURN(Entry se, ledger->Append("select", req.actor, sel.dump(), fold_refs));
+    sel.model = req.name;
+    sel.metric = report.metric;
+    sel.selection = report.selection;
+    sel.folds = k;
+    sel.seed = seed;
+    sel.rows_read = rows_ref.digest;
+    sel.candidates = ScoresJson(report);
+    sel.chosen = report.chosen;
+    sel.parents = parents;
+    sel.summary = "selected candidate " + std::to_string(report.chosen) + " of " +
+                  std::to_string(cands.size()) + " for " + req.name + " by " + report.selection +
+                  " " + report.metric;
+    UNSEEN_ASSIGN_OR_RETURN(Entry se, AppendEntry(ledger.get(), req.actor, sel, fold_refs));
     parents.push_back(se.seq);
   }
-  json fit = {{"model", req.name},
-              {"model_digest", ToHex(model_ref.digest)},
-              {"spec", ToHex(spec_ref.digest)},
-              {"data", {{"path", data}, {"sha256", ToHex(d.file_sha256)}}},
-              {"rows_read", ToHex(rows_ref.digest)},
-              {"rows", report.rows},
-              {"parents", parents},
-              {"candidates_compared", cands.size()},
-              {"settings", chosen.settings},
-              {"learner", chosen.learner.kind},
-              {"holdout_rows_read", 0},
-              {"tainted", false},
-              {"summary", "froze " + req.name + " (" + chosen.learner.kind + ", " +
-                              std::to_string(report.rows) + " rows, chosen from " +
-                              std::to_string(cands.size()) + ")"}};
+  FitBody fit;
+  fit.model = req.name;
+  fit.model_digest = model_ref.digest;
+  fit.spec = spec_ref.digest;
+  fit.data = {data, d.file_sha256};
+  fit.rows_read = rows_ref.digest;
+  fit.rows = report.rows;
+  fit.parents = parents;
+  fit.candidates_compared = cands.size();
+  fit.settings = chosen.settings;
+  fit.learner = chosen.learner.kind;
+  fit.summary = "froze " + req.name + " (" + chosen.learner.kind + ", " +
+                std::to_string(report.rows) + " rows, chosen from " +
+                std::to_string(cands.size()) + ")";
   std::vector<BlobRef> fit_blobs = {model_ref, spec_ref, rows_ref};
   if (excluded) {
-    fit["excluded"] = {{"partition", excluded->name},
-                       {"entry", excluded->entry_seq},
-                       {"row_set", ToHex(excluded->row_set)},
-                       {"rows_dropped", report.excluded_rows}};
+    fit.excluded = FitBody::Excluded{excluded->name, excluded->entry_seq, excluded->row_set,
+                                     report.excluded_rows};
     // Already stored by the partition entry (a no-op here); named as a blob this entry relies on.
     UNSEEN_ASSIGN_OR_RETURN(BlobRef ex_ref, ledger->PutBlob("row-set", excluded->rows.Serialize()));
     fit_blobs.push_back(ex_ref);
   }
-  UNSEEN_ASSIGN_OR_RETURN(Entry fe, ledger->Append("fit", req.actor, fit.dump(), fit_blobs));
+  UNSEEN_ASSIGN_OR_RETURN(Entry fe, AppendEntry(ledger.get(), req.actor, fit, fit_blobs));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.head = fe.hash;
   return report;

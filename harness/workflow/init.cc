@@ -4,8 +4,8 @@
 
 #include <cstdlib>
 #include <cstring>
-#include <nlohmann/json.hpp>
 
+#include "harness/ledger/entries.h"
 #include "storage/ledger.h"
 #include "storage/seal_crypto.h"
 
@@ -32,29 +32,28 @@ Result<InitReport> InitLedger(const InitRequest& request) {
   UNSEEN_ASSIGN_OR_RETURN(SourceScan scan, ScanSource(request.data_path, request.scan));
 
   UNSEEN_ASSIGN_OR_RETURN(std::string id, RandomBytes(16));
-  nlohmann::json genesis = {{"ledger_id", ToHex(id.data(), id.size())},
-                            {"row_digest_format", scan.info.row_digest_format}};
-  UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Create(request.ledger_path, request.actor,
-                                                      genesis.dump()));
+  GenesisBody genesis;
+  genesis.ledger_id = ToHex(id.data(), id.size());
+  genesis.row_digest_format = scan.info.row_digest_format;
+  UNSEEN_ASSIGN_OR_RETURN(auto ledger, CreateLedger(request.ledger_path, request.actor, genesis));
   std::vector<BlobRef> blobs;
   UNSEEN_ASSIGN_OR_RETURN(BlobRef rows, ledger->PutBlob("row-digests", Bytes(scan.row_digests)));
   blobs.push_back(rows);
-  nlohmann::json fields = nlohmann::json::parse(SourceToJson(scan.info));
+  SourceBody source;
+  source.source = scan.info;
   if (char* abs = ::realpath(request.data_path.c_str(), nullptr)) {
-    fields["file"]["absolute_path"] = std::string(abs);
+    source.absolute_path = std::string(abs);
     std::free(abs);
   }
-  fields["row_digests"] = ToHex(rows.digest);
+  source.row_digests = rows.digest;
+  source.content_digests = rows.digest;  // no id column: the same digests
   if (!scan.content_digests.empty()) {
     UNSEEN_ASSIGN_OR_RETURN(BlobRef content,
                             ledger->PutBlob("content-digests", Bytes(scan.content_digests)));
     blobs.push_back(content);
-    fields["content_digests"] = ToHex(content.digest);
-  } else {
-    fields["content_digests"] = ToHex(rows.digest);  // no id column: the same digests
+    source.content_digests = content.digest;
   }
-  UNSEEN_ASSIGN_OR_RETURN(Entry entry,
-                          ledger->Append("source", request.actor, fields.dump(), blobs));
+  UNSEEN_ASSIGN_OR_RETURN(Entry entry, AppendEntry(ledger.get(), request.actor, source, blobs));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   InitReport report;
   report.source = std::move(scan.info);

@@ -5,6 +5,7 @@
 #include <cstdio>
 
 #include "harness/ledger/admit.h"
+#include "harness/ledger/entries.h"
 #include "harness/ledger/ledger_state.h"
 #include "storage/staged_file.h"
 
@@ -13,40 +14,28 @@ namespace unseen {
 using json = nlohmann::json;
 
 Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger) {
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> fits, ledger.EntriesOfKind("fit"));
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<FitBody>> fits, ReadEntries<FitBody>(ledger));
   std::vector<ModelSummary> out;
-  for (const Entry& e : fits) {
-    try {
-      json b = json::parse(e.body);
-      ModelSummary m;
-      m.name = b.at("model").get<std::string>();
-      UNSEEN_ASSIGN_OR_RETURN(m.digest, Digest256FromHex(b.at("model_digest").get<std::string>()));
-      m.fit_entry = e.seq;
-      m.learner = b.value("learner", std::string());
-      m.rows = b.value("rows", uint64_t{0});
-      m.candidates = b.value("candidates_compared", uint64_t{1});
-      m.parents = b.value("parents", std::vector<int64_t>{});
-      m.tainted = b.value("tainted", false);
-      out.push_back(std::move(m));
-    } catch (const std::exception& ex) {
-      return Status::Corruption("entry " + std::to_string(e.seq) +
-                                " (fit) is malformed: " + ex.what());
-    }
+  for (Decoded<FitBody>& f : fits) {
+    ModelSummary m;
+    m.name = std::move(f.body.model);
+    m.digest = f.body.model_digest;
+    m.fit_entry = f.entry.seq;
+    m.learner = std::move(f.body.learner);
+    m.rows = f.body.rows;
+    m.candidates = f.body.candidates_compared;
+    m.parents = std::move(f.body.parents);
+    m.tainted = f.body.tainted;
+    out.push_back(std::move(m));
   }
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> evals, ledger.EntriesOfKind("eval"));
-  for (const Entry& e : evals) {
-    try {
-      const json body = json::parse(e.body);
-      for (const json& a : body.at("answers")) {
-        for (ModelSummary& m : out) {
-          if (a.at("model_digest").get<std::string>() != ToHex(m.digest)) continue;
-          ++m.holdout_answers;
-          if (a.at("contaminated").get<bool>()) m.contaminated = true;
-        }
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<EvalBody>> evals, ReadEntries<EvalBody>(ledger));
+  for (const Decoded<EvalBody>& e : evals) {
+    for (const EvalAnswerRecord& a : e.body.answers) {
+      for (ModelSummary& m : out) {
+        if (a.model_digest != m.digest) continue;
+        ++m.holdout_answers;
+        if (a.contaminated) m.contaminated = true;
       }
-    } catch (const std::exception& ex) {
-      return Status::Corruption("entry " + std::to_string(e.seq) +
-                                " (eval) is malformed: " + ex.what());
     }
   }
   return out;
@@ -57,9 +46,8 @@ Result<json> LoadModel(const Ledger& ledger, const std::string& name, ModelSumma
   std::string known;
   for (const ModelSummary& m : models) {
     if (m.name == name) {
-      UNSEEN_ASSIGN_OR_RETURN(std::string text, ledger.GetBlob(m.digest));
       if (summary) *summary = m;
-      return json::parse(text);
+      return LoadModelByDigest(ledger, m.digest);
     }
     known += (known.empty() ? "" : ", ") + m.name;
   }
@@ -144,15 +132,15 @@ Result<PredictReport> PredictWithModel(const PredictRequest& req) {
   PredictReport report;
   report.rows = loaded->ids.size();
   UNSEEN_ASSIGN_OR_RETURN(report.out_sha256, WritePredictions(req.out_path, *loaded, p, model));
-  json fields = {
-      {"model", req.model},
-      {"model_digest", ToHex(summary.digest)},
-      {"data", {{"path", req.data_path}, {"sha256", ToHex(loaded->file_sha256)}}},
-      {"rows", report.rows},
-      {"output", {{"path", req.out_path}, {"sha256", ToHex(report.out_sha256)}}},
-      {"parents", {summary.fit_entry}},
-      {"summary", "applied " + req.model + " to " + std::to_string(report.rows) + " rows"}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("apply", req.actor, fields.dump()));
+  ApplyBody body;
+  body.model = req.model;
+  body.model_digest = summary.digest;
+  body.data = {req.data_path, loaded->file_sha256};
+  body.rows = report.rows;
+  body.output = {req.out_path, report.out_sha256};
+  body.parents = {summary.fit_entry};
+  body.summary = "applied " + req.model + " to " + std::to_string(report.rows) + " rows";
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, AppendEntry(ledger.get(), req.actor, body));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.head = e.hash;
   return report;

@@ -32,7 +32,8 @@ struct ModelSummary {
 
 Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger);
 // The frozen model's canonical JSON, checked against its digest. NotFound
-// naming the known models if there is none of that name.
+// naming the known models if there is none of that name; Corruption if its
+// blob is not a JSON object.
 Result<nlohmann::json> LoadModel(const Ledger& ledger, const std::string& name, ModelSummary* summary);
 
 // The frozen model stored under `digest` (its blob, checked against the

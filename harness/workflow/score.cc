@@ -8,6 +8,7 @@
 #include "harness/data/source_scan.h"
 #include "harness/pipeline/metrics.h"
 #include "harness/ledger/admit.h"
+#include "harness/ledger/entries.h"
 #include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 #include "storage/row_set.h"
@@ -20,14 +21,13 @@ namespace {
 
 // Every row any `export` entry wrote, and those entries' numbers.
 Result<RowSet> ExportedRows(const Ledger& ledger, std::vector<int64_t>* seqs) {
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> exports, ledger.EntriesOfKind("export"));
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<ExportBody>> exports, ReadEntries<ExportBody>(ledger));
   RowSet all;
-  for (const Entry& e : exports) {
-    UNSEEN_ASSIGN_OR_RETURN(Digest256 d, Digest256FromHex(json::parse(e.body).at("row_set").get<std::string>()));
-    UNSEEN_ASSIGN_OR_RETURN(std::string bytes, ledger.GetBlob(d));
+  for (const Decoded<ExportBody>& e : exports) {
+    UNSEEN_ASSIGN_OR_RETURN(std::string bytes, ledger.GetBlob(e.body.row_set));
     UNSEEN_ASSIGN_OR_RETURN(RowSet s, RowSet::Deserialize(bytes));
     all = all.Or(s);
-    seqs->push_back(e.seq);
+    seqs->push_back(e.entry.seq);
   }
   return all;
 }
@@ -169,13 +169,17 @@ Result<ScoreReport> ScorePredictions(const ScoreRequest& req) {
   std::sort(rows.begin(), rows.end());
   UNSEEN_ASSIGN_OR_RETURN(BlobRef set, ledger->PutBlob("row-set", RowSet::FromSorted(rows).Serialize()));
   UNSEEN_ASSIGN_OR_RETURN(FileDigest fd, Sha256File(req.predictions_path));
-  json fields = {{"name", req.name},
-                 {"predictions", {{"path", req.predictions_path}, {"sha256", ToHex(fd.sha256)}}},
-                 {"rows", report.rows}, {"rows_read", ToHex(set.digest)},
-                 {"metric", report.metric}, {"value", report.value}, {"parents", export_seqs},
-                 {"summary", "scored " + req.name + " on " + std::to_string(report.rows) +
-                             " exported rows: " + report.metric + " " + std::to_string(report.value)}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e, ledger->Append("score", req.actor, fields.dump(), {set}));
+  ScoreBody body;
+  body.name = req.name;
+  body.predictions = {req.predictions_path, fd.sha256};
+  body.rows = report.rows;
+  body.rows_read = set.digest;
+  body.metric = report.metric;
+  body.value = report.value;
+  body.parents = export_seqs;
+  body.summary = "scored " + req.name + " on " + std::to_string(report.rows) +
+                 " exported rows: " + report.metric + " " + std::to_string(report.value);
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, AppendEntry(ledger.get(), req.actor, body, {set}));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   report.head = e.hash;
   return report;

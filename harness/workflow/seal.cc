@@ -12,7 +12,6 @@
 #include <future>
 #include <memory>
 #include <mutex>
-#include <nlohmann/json.hpp>
 #include <thread>
 #include <unordered_map>
 #include <unordered_set>
@@ -21,6 +20,7 @@
 #include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
+#include "harness/ledger/entries.h"
 #include "harness/ledger/holdout_sealer.h"
 #include "storage/staged_file.h"
 #include "storage/row_set.h"
@@ -28,8 +28,6 @@
 
 namespace unseen {
 namespace {
-
-using json = nlohmann::json;
 
 constexpr size_t kShownDuplicateLines = 5;
 
@@ -277,15 +275,6 @@ Status WriteRows(const CsvFile& csv, const SourceInfo& src, const SplitResult& s
   return Status::OK();
 }
 
-json KeyJson(const KeyInfo& k) {
-  json j = {{"source", k.source}, {"key_check", k.key_check_hex}};
-  if (k.source == "passphrase") {
-    j["salt"] = k.salt_hex;
-    j["scrypt"] = {{"N", k.scrypt.n}, {"r", k.scrypt.r}, {"p", k.scrypt.p}};
-  }
-  return j;
-}
-
 }  // namespace
 
 Result<SealReport> SealHoldout(const SealRequest& req) {
@@ -430,42 +419,28 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   report.cross_duplicate_holdout_rows = flagged.size();
   const auto& [dev_ref, sealed_ref, feat_ref] = *refs;
 
-  KeyInfo key_info = req.key_info;
-  key_info.key_check_hex = ToHex(KeyCheck(req.key, state.ledger_id));
-  json fields = {
-      {"source_entry", state.source_seq},
-      {"strategy", SplitStrategyName(req.strategy)},
-      {"fraction", req.fraction},
-      {"seed", req.seed},
-      {"requested_holdout", split.requested_holdout},
-      {"split_note", split.note},
-      {"holdout",
-       {{"rows", split.holdout.size()},
-        {"row_set", ToHex(holdout_ref.digest)},
-        {"sealed_rows", ToHex(sealed_ref.digest)},
-        {"feature_digests", ToHex(feat_ref.digest)},
-        {"cipher", "AES-256-GCM"},
-        {"compression", "zstd"},
-        {"encoding", kHoldoutEncodingColumns}}},
-      {"dev",
-       {{"rows", split.dev.size()},
-        {"row_set", ToHex(dev_ref.digest)},
-        {"file",
-         {{"path", req.dev_out}, {"sha256", ToHex(report.dev_out_sha256)}, {"size", dev.size()}}}}},
-      {"key", KeyJson(key_info)},
-      {"cross_duplicates", {{"holdout_rows", report.cross_duplicate_holdout_rows},
-                            {"dev_rows", report.cross_duplicate_dev_rows},
-                            {"moved_to_dev", report.dropped_cross_duplicates}}},
-      {"violations", {{"group", report.has_group ? json(report.group_violations) : json(nullptr)},
-                      {"time", report.has_time ? json(report.time_violations) : json(nullptr)}}},
-      {"budget", req.budget_half_width > 0
-                     ? json{{"queries", req.budget_queries},
-                            {"half_width", req.budget_half_width},
-                            {"delta", req.budget_delta}}
-                     : json{{"queries", req.budget_queries}}},
-  };
-  UNSEEN_ASSIGN_OR_RETURN(Entry entry, ledger->Append("seal", req.actor, fields.dump(),
-                                                      {holdout_ref, dev_ref, sealed_ref, feat_ref}));
+  SealBody body;
+  body.source_entry = state.source_seq;
+  body.strategy = SplitStrategyName(req.strategy);
+  body.fraction = req.fraction;
+  body.seed = req.seed;
+  body.requested_holdout = split.requested_holdout;
+  body.split_note = split.note;
+  body.holdout = {split.holdout.size(), holdout_ref.digest, sealed_ref.digest, feat_ref.digest,
+                  "AES-256-GCM", "zstd", kHoldoutEncodingColumns};
+  body.dev = {split.dev.size(), dev_ref.digest, req.dev_out, report.dev_out_sha256, dev.size()};
+  body.key = req.key_info;
+  body.key.key_check_hex = ToHex(KeyCheck(req.key, state.ledger_id));
+  body.cross_duplicate_holdout_rows = report.cross_duplicate_holdout_rows;
+  body.cross_duplicate_dev_rows = report.cross_duplicate_dev_rows;
+  body.cross_duplicates_moved_to_dev = report.dropped_cross_duplicates;
+  if (report.has_group) body.group_violations = report.group_violations;
+  if (report.has_time) body.time_violations = report.time_violations;
+  body.budget_queries = req.budget_queries;
+  body.budget_half_width = req.budget_half_width;  // recorded only when positive
+  body.budget_delta = req.budget_delta;
+  UNSEEN_ASSIGN_OR_RETURN(Entry entry, AppendEntry(ledger.get(), req.actor, body,
+                                                   {holdout_ref, dev_ref, sealed_ref, feat_ref}));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   UNSEEN_RETURN_IF_ERROR(dev.MoveIntoPlace());
 

@@ -1,0 +1,101 @@
+// A malformed entry body read by a command: exit 3 (integrity), whether the
+// body was rewritten in SQLite or appended with an intact chain, never a crash.
+#include <SQLiteCpp/SQLiteCpp.h>
+#include <gtest/gtest.h>
+
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "storage/ledger.h"
+#include "tests/testing/sample_data.h"
+#include "tests/testing/testing.h"
+
+namespace unseen {
+namespace {
+
+using testing::RunResult;
+using testing::RunUnseen;
+using testing::ShellQuote;
+using testing::TempDir;
+using testing::WriteFile;
+
+constexpr const char* kSpec = R"(
+[[transform]]
+kind = "onehot"
+[learner]
+kind = "logistic"
+l2 = 1.0
+)";
+
+class EntriesTamperTest : public ::testing::Test {
+ protected:
+  void SetUp() override {
+    WriteFile(dir_.File("d.csv"), testing::SampleCsv(200, 10, 4));
+    WriteFile(dir_.File("spec.toml"), kSpec);
+    ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
+    RunResult init = RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
+                               " --target label --id id --group site --time day");
+    ASSERT_EQ(init.exit_code, 0) << init.err;
+    RunResult seal = RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                               " --seed 1 --dev-out " + Q("dev.csv"));
+    ASSERT_EQ(seal.exit_code, 0) << seal.err;
+    RunResult fit =
+        RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("spec.toml") + " --name m1");
+    ASSERT_EQ(fit.exit_code, 0) << fit.err;
+    ASSERT_EQ(Models().exit_code, 0);
+  }
+
+  std::string Q(const std::string& name) { return ShellQuote(dir_.File(name)); }
+  RunResult Models() { return RunUnseen("models --ledger " + Q("l")); }
+
+  // Runs SQL on the ledger with the append-only triggers lifted, then puts
+  // them back (as tests/cli/tamper_test.cc does).
+  void Tamper(const std::string& sql) {
+    SQLite::Database db(dir_.File("l"), SQLite::OPEN_READWRITE);
+    std::vector<std::pair<std::string, std::string>> triggers;
+    SQLite::Statement q(db, "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'");
+    while (q.executeStep()) {
+      triggers.emplace_back(q.getColumn(0).getString(), q.getColumn(1).getString());
+    }
+    for (const auto& [name, _] : triggers) db.exec("DROP TRIGGER " + name);
+    db.exec(sql);
+    for (const auto& [_, text] : triggers) db.exec(text);
+  }
+
+  TempDir dir_;
+};
+
+TEST_F(EntriesTamperTest, FitBodyRewrittenWithAWrongTypeIsAnIntegrityFailure) {
+  // `models` reads the bodies without walking the chain: the decoder is what
+  // catches the rewrite (`verify` would name the broken hash).
+  Tamper(
+      "UPDATE entries SET body = replace(body, '\"tainted\":false', '\"tainted\":\"no\"') "
+      "WHERE kind = 'fit'");
+  RunResult models = Models();
+  EXPECT_EQ(models.exit_code, 3) << models.out << models.err;
+  EXPECT_NE(models.err.find("entry 4 (fit): 'tainted' should be true or false"), std::string::npos)
+      << models.err;
+  RunResult verify = RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k"));
+  EXPECT_EQ(verify.exit_code, 3) << verify.err;
+}
+
+TEST_F(EntriesTamperTest, FitAppendedWithABadDigestIsAnIntegrityFailureDespiteTheChain) {
+  {
+    auto ledger = Ledger::Open(dir_.File("l"), LedgerMode::kReadWrite);
+    ASSERT_OK(ledger);
+    ASSERT_OK((*ledger)->Begin());
+    ASSERT_OK((*ledger)->Append("fit", "forger", R"({"model":"m2","model_digest":"00ff"})"));
+    ASSERT_OK((*ledger)->Commit());
+  }
+  RunResult models = Models();
+  EXPECT_EQ(models.exit_code, 3) << models.out << models.err;
+  EXPECT_NE(models.err.find("entry 5 (fit): 'model_digest' is not a SHA-256 digest"),
+            std::string::npos)
+      << models.err;
+  RunResult history = RunUnseen("history --ledger " + Q("l"));
+  EXPECT_EQ(history.exit_code, 3) << history.out << history.err;
+}
+
+}  // namespace
+}  // namespace unseen
