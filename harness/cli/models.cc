@@ -52,9 +52,8 @@ Runner SetupModels(CLI::App& app) {
   AddCommonOptions(cmd, &opt->common);
   return [opt, cmd]() -> Status {
     if (!cmd->parsed()) return Status::OK();
-    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->common.ledger, LedgerMode::kReadOnly));
     if (!opt->show.empty()) {
-      UNSEEN_ASSIGN_OR_RETURN(nlohmann::json model, LoadModel(*ledger, opt->show, nullptr));
+      UNSEEN_ASSIGN_OR_RETURN(nlohmann::json model, ShowModel(opt->common.ledger, opt->show));
       if (!opt->common.json && model.contains("blend")) {
         try {
           PrintBlend(model);
@@ -66,7 +65,7 @@ Runner SetupModels(CLI::App& app) {
       fmt::print("{}\n", opt->common.json ? model.dump() : model.dump(2));
       return Status::OK();
     }
-    UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListModels(*ledger));
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListFrozenModels(opt->common.ledger));
     if (opt->common.json) {
       nlohmann::json out = nlohmann::json::array();
       for (const ModelSummary& m : models) {

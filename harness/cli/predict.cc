@@ -4,7 +4,7 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
-#include "harness/workflow/models.h"
+#include "harness/workflow/predict.h"
 
 namespace unseen::cli {
 

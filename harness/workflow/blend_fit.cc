@@ -15,7 +15,7 @@
 #include "harness/ledger/entries.h"
 #include "harness/workflow/carve.h"
 #include "harness/workflow/fit_steps.h"
-#include "harness/workflow/models.h"
+#include "harness/ledger/models.h"
 
 namespace unseen::internal {
 
@@ -27,10 +27,7 @@ constexpr int kDefaultFolds = 5;
 constexpr size_t kShownRows = 5;
 constexpr int kMaxLineageDepth = 16;
 
-struct Member {
-  ModelSummary summary;
-  json model;
-};
+using Member = LoadedModel;
 
 // The loss the contributions are measured in: [select] metric, else mse
 // for regression and brier for classification.
@@ -53,16 +50,14 @@ Result<std::vector<Member>> LoadMembers(const Ledger& ledger, const PipelineSpec
                                         const BlendSpec& b) {
   std::vector<Member> out;
   for (const std::string& name : b.members) {
-    Member m;
-    Result<json> model = LoadModel(ledger, name, &m.summary);
+    Result<LoadedModel> model = LoadModel(ledger, name);
     if (!model.ok()) {
       std::string msg = model.status().message();
       if (msg.rfind("--model: ", 0) == 0) msg = msg.substr(9);
       if (!model.status().IsNotFound()) return model.status();
       return Status::NotFound(SpecWhere(spec.path, b.members_at) + "blend: " + msg);
     }
-    m.model = std::move(*model);
-    out.push_back(std::move(m));
+    out.push_back(std::move(*model));
   }
   return out;
 }
@@ -145,7 +140,7 @@ Result<Eigen::MatrixXd> MemberScores(const Ledger& ledger, const std::vector<Mem
                          static_cast<Eigen::Index>(members.size()));
   for (size_t i = 0; i < members.size(); ++i) {
     const ModelSummary& s = members[i].summary;
-    UNSEEN_ASSIGN_OR_RETURN(FrozenModel member, LoadFrozenModel(ledger, members[i].model));
+    const FrozenModel& member = *members[i].model;
     if (member.task() != task) {
       return Status::InvalidArgument(where + "blend: member '" + s.name +
                                      "' was fitted for another task");

@@ -113,44 +113,46 @@ Status OpenGuard(EvalRun* run) {
   return Status::OK();
 }
 
+// An external predictor's identity as the entry records it.
+Result<EvalExternal> ExternalRecord(const ExternalModelRequest& ext, const Query& q) {
+  EvalExternal out;
+  out.name = ext.name;
+  out.command = ext.command;
+  out.timeout_seconds = ext.timeout_seconds;
+  for (const json& a : q.model.at("attached")) {
+    UNSEEN_ASSIGN_OR_RETURN(Digest256 d, Digest256FromHex(a.at("sha256").get<std::string>()));
+    out.attached.push_back(FileRecord{a.at("path").get<std::string>(), d});
+  }
+  return out;
+}
+
 // One entry for the batch, then the commit.
 Status RecordAnswers(EvalRun* run) {
   const EvalRequest& req = *run->req;
   const EvalReport& r = run->report;
-  json parents = json::array();
+  EvalBody body;
   std::string names;
   for (const Query& q : run->queries) {
-    if (q.kind == "frozen") parents.push_back(q.frozen_at);
+    if (q.kind == "frozen") body.parents.push_back(q.frozen_at);
     names += (names.empty() ? "" : ", ") + q.name;
   }
-  json external = nullptr;
   if (req.external) {
-    external = run->queries.back().model;
-    external["name"] = req.external->name;
-    external["timeout_seconds"] = req.external->timeout_seconds;
+    UNSEEN_ASSIGN_OR_RETURN(body.external, ExternalRecord(*req.external, run->queries.back()));
   }
-  json thresholdout = nullptr;
   if (req.thresholdout && run->new_queries > 0) {
-    UNSEEN_ASSIGN_OR_RETURN(thresholdout, SealThresholdoutState(run));
+    UNSEEN_ASSIGN_OR_RETURN(body.thresholdout, SealThresholdoutState(run));
   }
-  json fields = {
-      {"answers", run->answers},
-      {"thresholdout", thresholdout},
-      {"external", external},
-      {"queries_spent", r.queries_spent},
-      {"queries_total", r.queries_total},
-      {"budget", r.budget},
-      {"log_hypotheses", run->log_h},
-      {"holdout_rows", run->st.seal->holdout_rows},
-      {"parents", parents},
-      {"accept_contamination",
-       req.accept_contamination.empty() ? json(nullptr) : json(req.accept_contamination)},
-      {"summary", "evaluated " + names + " on the holdout (" + run->metric_name + ", " +
-                      std::to_string(r.queries_spent) + " new queries, " +
-                      std::to_string(r.queries_total) + " of " + std::to_string(r.budget) +
-                      " used)"}};
-  UNSEEN_ASSIGN_OR_RETURN(Entry e,
-                          run->ledger->Append("eval", req.actor, fields.dump(), run->blobs));
+  body.answers = std::move(run->answers);
+  body.queries_spent = r.queries_spent;
+  body.queries_total = r.queries_total;
+  body.budget = r.budget;
+  body.log_hypotheses = run->log_h;
+  body.holdout_rows = run->st.seal->holdout_rows;
+  if (!req.accept_contamination.empty()) body.accept_contamination = req.accept_contamination;
+  body.summary = "evaluated " + names + " on the holdout (" + run->metric_name + ", " +
+                 std::to_string(r.queries_spent) + " new queries, " +
+                 std::to_string(r.queries_total) + " of " + std::to_string(r.budget) + " used)";
+  UNSEEN_ASSIGN_OR_RETURN(Entry e, AppendEntry(run->ledger.get(), req.actor, body, run->blobs));
   UNSEEN_RETURN_IF_ERROR(run->ledger->Commit());
   run->report.head = e.hash;
   return Status::OK();

@@ -15,34 +15,39 @@ using json = nlohmann::json;
 
 namespace {
 
-// An answer as the ledger records it (the "answers" array of an eval entry).
-json RecordedAnswer(const EvalAnswer& a) {
-  return json{{"model", a.model},
-              {"kind", a.kind},
-              {"model_digest", ToHex(a.model_digest)},
-              {"metric", a.metric},
-              {"method", a.method},
-              {"delta", a.delta},
-              {"n", a.n},
-              {"estimate", a.estimate},
-              {"lower", a.lower},
-              {"upper", a.upper},
-              {"step", a.step},
-              {"range", {a.range_lo, a.range_hi}},
-              {"range_source", a.range_source},
-              {"outside_range", a.outside_range},
-              {"queries", a.queries},
-              {"reveals_before_freeze", a.reveals_before_freeze},
-              {"log_weight", a.log_weight},
-              {"log_hypotheses", a.log_hypotheses},
-              {"repeat_of", a.repeated ? json(a.repeat_of) : json(nullptr)},
-              {"contaminated", a.contaminated},
-              {"taints", a.taints},
-              {"mode", a.mode},
-              {"improved", a.improved},
-              {"leader", a.leader},
-              {"ladder_step", a.ladder_step},
-              {"tau", a.tau}};
+// An answer as the ledger records it (one of an eval entry's answers).
+EvalAnswerRecord RecordOf(const EvalAnswer& a, const Shown& s) {
+  EvalAnswerRecord r;
+  r.model = a.model;
+  r.kind = a.kind;
+  r.model_digest = a.model_digest;
+  r.metric = a.metric;
+  r.method = a.method;
+  r.delta = a.delta;
+  r.n = a.n;
+  r.estimate = a.estimate;
+  r.lower = a.lower;
+  r.upper = a.upper;
+  r.step = a.step;
+  r.range_lo = a.range_lo;
+  r.range_hi = a.range_hi;
+  r.range_source = a.range_source;
+  r.outside_range = a.outside_range;
+  r.queries = a.queries;
+  r.reveals_before_freeze = a.reveals_before_freeze;
+  r.log_weight = a.log_weight;
+  r.log_hypotheses = a.log_hypotheses;
+  if (a.repeated) r.repeat_of = a.repeat_of;
+  r.contaminated = a.contaminated;
+  r.taints = a.taints;
+  r.mode = a.mode;
+  r.improved = a.improved;
+  r.leader = a.leader;
+  r.ladder_step = a.ladder_step;
+  r.tau = a.tau;
+  r.log_values = s.log_values;
+  r.ladder_max_submissions = s.ladder_max_submissions;
+  return r;
 }
 
 // The one place an answer's fields are filled, for every mode.
@@ -77,10 +82,7 @@ void FillAnswer(EvalRun* run, const Query& q, const Shown& s) {
   a.ladder_step = s.ladder_step;
   a.tau = s.tau;
   a.assumptions = s.assumptions;
-  json recorded = RecordedAnswer(a);
-  if (s.log_values) recorded["log_values"] = *s.log_values;
-  if (s.ladder_max_submissions) recorded["ladder_max_submissions"] = *s.ladder_max_submissions;
-  run->answers.push_back(std::move(recorded));
+  run->answers.push_back(RecordOf(a, s));
   run->report.answers.push_back(std::move(a));
 }
 
@@ -100,27 +102,27 @@ Shown NewShown(const Query& q, const MetricSample& sample, double log_hypotheses
 
 // A question asked before: the earlier answer, revealing nothing new.
 Shown RepeatShown(const PastAnswer& p) {
-  const json& b = p.body;
+  const EvalAnswerRecord& b = p.record;
   Shown s;
   s.repeat_of = p.entry;
-  s.n = b.at("n");
-  s.estimate = b.at("estimate");
-  s.lower = b.at("lower");
-  s.upper = b.at("upper");
-  s.step = b.at("step");
-  s.range_lo = b.at("range")[0];
-  s.range_hi = b.at("range")[1];
-  s.range_source = b.at("range_source");
-  s.outside_range = b.at("outside_range");
-  s.reveals_before_freeze = b.at("reveals_before_freeze");
-  s.log_weight = b.at("log_weight");
-  s.log_hypotheses = b.at("log_hypotheses");
-  s.mode = b.value("mode", "plain");
-  s.improved = b.value("improved", false);
-  s.leader = b.value("leader", "");
-  s.ladder_step = b.value("ladder_step", 0.0);
-  s.tau = b.value("tau", 0.0);
-  s.was_contaminated = b.at("contaminated").get<bool>();
+  s.n = b.n;
+  s.estimate = b.estimate;
+  s.lower = b.lower;
+  s.upper = b.upper;
+  s.step = b.step;
+  s.range_lo = b.range_lo;
+  s.range_hi = b.range_hi;
+  s.range_source = b.range_source;
+  s.outside_range = b.outside_range;
+  s.reveals_before_freeze = b.reveals_before_freeze;
+  s.log_weight = b.log_weight;
+  s.log_hypotheses = b.log_hypotheses;
+  s.mode = b.mode;
+  s.improved = b.improved;
+  s.leader = b.leader;
+  s.ladder_step = b.ladder_step;
+  s.tau = b.tau;
+  s.was_contaminated = b.contaminated;
   s.assumptions = "answered from entry " + std::to_string(p.entry) +
                   ": the same question was asked before, so nothing new is revealed";
   return s;

@@ -4,9 +4,9 @@
 
 #include "harness/bounds/adaptivity.h"
 #include "harness/ledger/lineage.h"
+#include "harness/ledger/models.h"
 #include "harness/workflow/eval_steps.h"
 #include "harness/workflow/fit.h"
-#include "harness/workflow/models.h"
 
 namespace unseen::internal {
 
@@ -14,14 +14,12 @@ using json = nlohmann::json;
 
 namespace {
 
-// What makes two queries the same question.
-json QueryKey(const std::string& digest, const std::string& metric, const std::string& method,
-              double delta, const json& range) {
-  return json{{"model_digest", digest},
-              {"metric", metric},
-              {"method", method},
-              {"delta", delta},
-              {"range", range}};
+// Two queries are the same question when they ask the same model the same
+// metric, by the same method, at the same delta, over the same range.
+bool SameQuestion(const EvalAnswerRecord& a, const Digest256& digest, const EvalRun& run) {
+  return a.model_digest == digest && a.metric == run.metric_name &&
+         a.method == run.method_name && a.delta == run.req->delta &&
+         a.range_lo == run.setup.probe.range_lo && a.range_hi == run.setup.probe.range_hi;
 }
 
 // An external predictor's identity (command line and attached files'
@@ -58,34 +56,34 @@ Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
 // A frozen model by name, loaded with its members: the guard must not read
 // the ledger while it holds rows.
 Result<Query> FrozenQuery(const Ledger& ledger, const LedgerState& st, const std::string& name) {
+  Result<LoadedModel> loaded = LoadModel(ledger, name);
+  if (!loaded.ok()) {
+    const std::string& why = loaded.status().message();
+    if (loaded.status().IsNotFound()) return Status::InvalidArgument(why);
+    // A damaged model blob is the ledger's fault (exit 3), anything else the model's.
+    if (loaded.status().IsCorruption()) return Status::Corruption("model '" + name + "': " + why);
+    return Status::InvalidArgument("model '" + name + "': " + why);
+  }
   Query q;
   q.name = name;
   q.kind = "frozen";
-  ModelSummary summary;
-  auto model = LoadModel(ledger, name, &summary);
-  if (!model.ok()) return Status::InvalidArgument(model.status().message());
-  q.model = std::move(*model);
-  q.digest = summary.digest;
-  q.frozen_at = summary.fit_entry;
-  UNSEEN_ASSIGN_OR_RETURN(Lineage lineage, TraceLineage(ledger, st, summary.fit_entry, q.model));
+  q.model = std::move(loaded->json);
+  q.digest = loaded->summary.digest;
+  q.frozen_at = loaded->summary.fit_entry;
+  q.frozen = std::move(loaded->model);
+  UNSEEN_ASSIGN_OR_RETURN(Lineage lineage, TraceLineage(ledger, st, q.frozen_at, q.model));
   q.taints = lineage.taints;
-  auto frozen = LoadFrozenModel(ledger, q.model);
-  if (!frozen.ok())
-    return Status::InvalidArgument("model '" + name + "': " + frozen.status().message());
-  q.frozen = std::make_shared<FrozenModel>(std::move(*frozen));
   return q;
 }
 
 // Points each query at the first earlier reveal of the same question.
 void FindRepeats(EvalRun* run) {
-  const json range = {run->setup.probe.range_lo, run->setup.probe.range_hi};
   for (Query& q : run->queries) {
-    json key = QueryKey(ToHex(q.digest), run->metric_name, run->method_name, run->req->delta, range);
     for (const PastAnswer& p : run->past) {
-      if (!p.reveal) continue;
-      json pk = QueryKey(p.body.at("model_digest"), p.body.at("metric"), p.body.at("method"),
-                         p.body.at("delta").get<double>(), p.body.at("range"));
-      if (pk == key && !q.repeat) q.repeat = &p;
+      if (p.reveal() && SameQuestion(p.record, q.digest, *run)) {
+        q.repeat = &p;
+        break;
+      }
     }
   }
 }
@@ -172,21 +170,17 @@ Status CheckModes(const EvalRun& run) {
 }
 
 Result<std::vector<PastAnswer>> PastAnswers(const Ledger& ledger) {
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> evals, ledger.EntriesOfKind("eval"));
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<EvalBody>> evals, ReadEntries<EvalBody>(ledger));
   std::vector<PastAnswer> out;
-  for (const Entry& e : evals) {
-    try {
-      json b = json::parse(e.body);
-      for (const json& a : b.at("answers")) {
-        PastAnswer p;
-        p.entry = e.seq;
-        p.body = a;
-        p.reveal = a.at("repeat_of").is_null();
-        out.push_back(std::move(p));
+  for (Decoded<EvalBody>& e : evals) {
+    for (size_t i = 0; i < e.body.answers.size(); ++i) {
+      PastAnswer p{e.entry.seq, std::move(e.body.answers[i])};
+      if (p.reveal() && !p.record.log_values) {
+        return Status::Corruption("entry " + std::to_string(e.entry.seq) + " (eval): answer " +
+                                  std::to_string(i) +
+                                  " is a reveal without 'log_values' (the values it could show)");
       }
-    } catch (const std::exception& ex) {
-      return Status::Corruption("entry " + std::to_string(e.seq) +
-                                " (eval) is malformed: " + ex.what());
+      out.push_back(std::move(p));
     }
   }
   return out;
@@ -219,13 +213,13 @@ Status PlanQueries(EvalRun* run) {
 void WeighAdaptivity(EvalRun* run) {
   std::vector<double> weights;
   for (const PastAnswer& p : run->past) {
-    if (p.reveal) weights.push_back(p.body.at("log_weight").get<double>());
+    if (p.reveal()) weights.push_back(p.record.log_weight);
   }
   for (Query& q : run->queries) {
     if (q.repeat) continue;
     for (const PastAnswer& p : run->past) {
-      if (p.reveal && p.entry < q.frozen_at) {
-        q.log_weight += p.body.at("log_values").get<double>();
+      if (p.reveal() && p.entry < q.frozen_at) {
+        q.log_weight += *p.record.log_values;
         ++q.reveals_before;
       }
     }

@@ -18,45 +18,49 @@ namespace {
 
 // The Ladder's step and size come from its first answer for this metric;
 // its value and leader from its latest.
-void ReplayLadderAnswers(EvalRun* run) {
+Status ReplayLadderAnswers(EvalRun* run) {
   LadderRun& l = run->ladder;
   l.params.range_lo = run->setup.probe.range_lo;
   l.params.range_hi = run->setup.probe.range_hi;
   for (const PastAnswer& p : run->past) {
-    if (!p.reveal || p.body.value("mode", "plain") != "ladder" ||
-        p.body.at("metric") != run->metric_name)
-      continue;
+    const EvalAnswerRecord& a = p.record;
+    if (!p.reveal() || a.mode != "ladder" || a.metric != run->metric_name) continue;
     if (!l.started) {
-      l.params.step = p.body.at("ladder_step");
-      l.params.max_submissions = p.body.at("ladder_max_submissions");
+      if (!a.ladder_max_submissions) {
+        return Status::Corruption("entry " + std::to_string(p.entry) +
+                                  " (eval): a Ladder answer without 'ladder_max_submissions'");
+      }
+      l.params.step = a.ladder_step;
+      l.params.max_submissions = *a.ladder_max_submissions;
       l.started = true;
     }
-    l.value = p.body.at("estimate").get<double>();
-    l.leader = p.body.at("leader");
+    l.value = a.estimate;
+    l.leader = a.leader;
     ++l.used;
   }
+  return Status::OK();
 }
 
 // The latest sealed Thresholdout state, if any eval entry holds one.
 Status ReadThresholdoutState(EvalRun* run) {
   ThresholdoutRun& t = run->tho;
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> evals, run->ledger->EntriesOfKind("eval"));
-  for (const Entry& e : evals) {
-    json b = json::parse(e.body);
-    if (!b.contains("thresholdout") || b["thresholdout"].is_null()) continue;
-    const json& j = b["thresholdout"];
-    t.params.tau = j.at("tau");
-    t.params.threshold = j.at("threshold");
-    t.params.sigma = j.at("sigma");
-    t.params.m = j.at("m");
-    t.params.budget = j.at("budget");
-    t.params.beta = j.at("beta");
-    UNSEEN_ASSIGN_OR_RETURN(Digest256 d, Digest256FromHex(j.at("state").get<std::string>()));
-    UNSEEN_ASSIGN_OR_RETURN(std::string blob, run->ledger->GetBlob(d));
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<EvalBody>> evals,
+                          ReadEntries<EvalBody>(*run->ledger));
+  for (const Decoded<EvalBody>& e : evals) {
+    if (!e.body.thresholdout) continue;
+    t.params = e.body.thresholdout->params;
+    UNSEEN_ASSIGN_OR_RETURN(std::string blob, run->ledger->GetBlob(e.body.thresholdout->state));
     UNSEEN_ASSIGN_OR_RETURN(std::string plain, OpenSealed(*run->key, t.aad, blob));
-    json sj = json::parse(plain);
-    t.state.noisy_threshold = sj.at("noisy_threshold");
-    t.state.budget_left = sj.at("budget_left");
+    json state = json::parse(plain, nullptr, /*allow_exceptions=*/false);
+    const auto threshold = state.is_object() ? state.find("noisy_threshold") : state.end();
+    const auto left = state.is_object() ? state.find("budget_left") : state.end();
+    if (threshold == state.end() || !threshold->is_number() || left == state.end() ||
+        !left->is_number_unsigned()) {
+      return Status::Corruption("entry " + std::to_string(e.entry.seq) +
+                                " (eval): the sealed Thresholdout state is malformed");
+    }
+    t.state.noisy_threshold = threshold->get<double>();
+    t.state.budget_left = left->get<uint64_t>();
     t.started = true;
   }
   return Status::OK();
@@ -73,7 +77,7 @@ Result<double> UniformDraw() {
 }
 
 Status ReplayLadder(EvalRun* run) {
-  ReplayLadderAnswers(run);
+  UNSEEN_RETURN_IF_ERROR(ReplayLadderAnswers(run));
   const EvalRequest& req = *run->req;
   if (!req.ladder) return Status::OK();
   LadderRun& l = run->ladder;
@@ -130,7 +134,7 @@ Status LoadThresholdout(EvalRun* run) {
   return Status::OK();
 }
 
-Result<json> SealThresholdoutState(EvalRun* run) {
+Result<EvalThresholdout> SealThresholdoutState(EvalRun* run) {
   // The noisy threshold and the budget left are secret: sealed with the
   // holdout key, so that the next call (and an auditor with the key) can read them.
   const ThresholdoutRun& t = run->tho;
@@ -142,10 +146,7 @@ Result<json> SealThresholdoutState(EvalRun* run) {
   UNSEEN_ASSIGN_OR_RETURN(std::string blob, writer->Finish());
   UNSEEN_ASSIGN_OR_RETURN(BlobRef ref, run->ledger->PutBlob("thresholdout-state", blob));
   run->blobs.push_back(ref);
-  return json{{"tau", t.params.tau},       {"threshold", t.params.threshold},
-              {"sigma", t.params.sigma},   {"m", t.params.m},
-              {"budget", t.params.budget}, {"beta", t.params.beta},
-              {"state", ToHex(ref.digest)}};
+  return EvalThresholdout{t.params, ref.digest};
 }
 
 Result<double> TrainingMean(EvalRun* run, const Query& q) {

@@ -19,6 +19,7 @@
 #include "harness/bounds/thresholdout.h"
 #include "harness/evaluate/guard.h"
 #include "harness/ledger/admit.h"
+#include "harness/ledger/entries.h"
 #include "harness/ledger/ledger_state.h"
 #include "harness/workflow/eval.h"
 #include "storage/ledger.h"
@@ -27,9 +28,9 @@ namespace unseen::internal {
 
 // One answer already in the ledger.
 struct PastAnswer {
-  int64_t entry = 0;
-  nlohmann::json body;  // the answer object as recorded
-  bool reveal = false;  // false for an answer repeated from an earlier entry
+  int64_t entry = 0;        // the eval entry that holds it
+  EvalAnswerRecord record;  // as recorded
+  bool reveal() const { return record.reveal(); }
 };
 
 // A model to query: frozen or external.
@@ -110,7 +111,7 @@ struct EvalRun {
   std::optional<Key> key;
   std::unique_ptr<HoldoutGuard> guard;
   std::optional<LoadedData> train_rows;  // Thresholdout: loaded on first use
-  nlohmann::json answers = nlohmann::json::array();  // as recorded
+  std::vector<EvalAnswerRecord> answers;  // as recorded
   std::vector<BlobRef> blobs;
 };
 
@@ -120,7 +121,8 @@ struct EvalRun {
 Result<MetricSetup> SetUpMetric(const EvalRequest& req, const LedgerState& st);
 // Options that exclude each other or do not fit the metric: InvalidArgument.
 Status CheckModes(const EvalRun& run);
-// Every answer in earlier eval entries. Corruption for a malformed entry.
+// Every answer in earlier eval entries. Corruption for a malformed entry, or
+// a reveal without the number of values it could show (log_values).
 Result<std::vector<PastAnswer>> PastAnswers(const Ledger& ledger);
 // The frozen models and the external predictor, with their lineage's taints,
 // and which questions were asked before; sets run->new_queries.
@@ -141,9 +143,9 @@ Status ReplayLadder(EvalRun* run);
 // Thresholdout's settings and sealed state from earlier entries (or fresh
 // ones); refuses when its budget is spent. Needs the key.
 Status LoadThresholdout(EvalRun* run);
-// Seals Thresholdout's state with the key into a blob and returns the
-// entry's "thresholdout" object.
-Result<nlohmann::json> SealThresholdoutState(EvalRun* run);
+// Seals Thresholdout's state with the key into a blob (added to
+// run->blobs) and returns the entry's record of it.
+Result<EvalThresholdout> SealThresholdoutState(EvalRun* run);
 // A model's mean loss on its training rows, on the [0, 1] scale of the
 // metric's range: the "training set" value Thresholdout compares with.
 Result<double> TrainingMean(EvalRun* run, const Query& q);

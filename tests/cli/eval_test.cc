@@ -11,7 +11,7 @@
 #include <string>
 
 #include "harness/bounds/bounds.h"
-#include "harness/workflow/models.h"
+#include "harness/ledger/models.h"
 #include "storage/ledger.h"
 #include "tests/testing/sample_data.h"
 #include "tests/testing/testing.h"
@@ -90,17 +90,17 @@ class EvalTest : public ::testing::Test {
   std::pair<uint64_t, uint64_t> HoldoutErrors(const std::string& name) {
     auto ledger = Ledger::Open(dir_.File("l"), LedgerMode::kReadOnly);
     EXPECT_TRUE(ledger.ok());
-    auto model = LoadModel(**ledger, name, nullptr);
+    auto model = LoadModel(**ledger, name);
     EXPECT_TRUE(model.ok());
     auto rows = HoldoutRows();
     Frame x;
     x.columns = {FrameColumn{"a", true, {}, {}}, FrameColumn{"b", true, {}, {}}};
-    std::vector<std::string> classes = model->at("target").at("classes");
+    std::vector<std::string> classes = model->json.at("target").at("classes");
     for (const auto& r : rows) {
       x.columns[0].num.push_back(std::stod(r[3]));
       x.columns[1].num.push_back(std::stod(r[4]));
     }
-    auto p = ApplyFrozenModel(**ledger, *model, x);
+    auto p = model->model->Predict(x);
     EXPECT_TRUE(p.ok());
     uint64_t errors = 0;
     for (size_t i = 0; i < rows.size(); ++i) {
@@ -263,9 +263,10 @@ void ForgeTaintedModel(const std::string& ledger_path, const std::string& from,
   auto ledger = Ledger::Open(ledger_path, LedgerMode::kReadWrite);
   ASSERT_TRUE(ledger.ok());
   ASSERT_TRUE((*ledger)->Begin().ok());
-  ModelSummary summary;
-  auto model = LoadModel(**ledger, from, &summary);
-  ASSERT_TRUE(model.ok());
+  auto loaded = LoadModel(**ledger, from);
+  ASSERT_TRUE(loaded.ok());
+  const ModelSummary& summary = loaded->summary;
+  json* model = &loaded->json;
   json fit;
   auto fits = (*ledger)->EntriesOfKind("fit");
   ASSERT_TRUE(fits.ok());
@@ -325,9 +326,9 @@ TEST_F(EvalTest, ModelFromAnotherSourceIsRefused) {
   auto ledger = Ledger::Open(dir_.File("l"), LedgerMode::kReadWrite);
   ASSERT_TRUE(ledger.ok());
   ASSERT_TRUE((*ledger)->Begin().ok());
-  ModelSummary summary;
-  auto model = LoadModel(**ledger, "alpha", &summary);
-  ASSERT_TRUE(model.ok());
+  auto loaded = LoadModel(**ledger, "alpha");
+  ASSERT_TRUE(loaded.ok());
+  json* model = &loaded->json;
   (*model)["source_sha256"] = std::string(64, 'a');
   auto ref = (*ledger)->PutBlob("model", *CanonicalJson(model->dump()));
   ASSERT_TRUE(ref.ok());

@@ -336,6 +336,24 @@ TEST_F(FitTest, PredictWritesIdsPredictionsAndProbabilities) {
   EXPECT_EQ(ReadFile(dir_.File("n.csv")).substr(0, 23), "id,prediction,p_no,p_ye");
 }
 
+TEST_F(FitTest, PredictOnRowsWithoutIdsCountsEveryRowAndNumbersThem) {
+  ASSERT_EQ(Fit("m").exit_code, 0);
+  // No id column: each row is named by its data row number, and the apply
+  // entry counts every row (it once counted the ids, none here).
+  WriteFile(dir_.File("new.csv"), "site,day,a,b\ns1,3,12.5,2\ns9,9,99.0,6\ns2,4,1.5,3\n");
+  RunResult n = RunUnseen("predict --json --ledger " + Q("l") + " --model m --data " +
+                          Q("new.csv") + " --out " + Q("n.csv"));
+  ASSERT_EQ(n.exit_code, 0) << n.err;
+  EXPECT_EQ(json::parse(n.out)["rows"], 3);
+  EXPECT_EQ(History().back()["body"]["rows"], 3);
+  std::istringstream out(ReadFile(dir_.File("n.csv")));
+  std::string line;
+  std::vector<std::string> ids;
+  std::getline(out, line);
+  while (std::getline(out, line)) ids.push_back(line.substr(0, line.find(',')));
+  EXPECT_EQ(ids, (std::vector<std::string>{"0", "1", "2"}));
+}
+
 TEST_F(FitTest, ExportWritesDevRowsAndGroupAwareFolds) {
   RunResult r = RunUnseen("export --json --ledger " + Q("l") + " --out " + Q("all.csv") +
                           " --folds 3 --out-dir " + ShellQuote(dir_.path()) + " --seed 5");
