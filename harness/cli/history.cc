@@ -4,7 +4,7 @@
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
-#include "harness/ledger/entries.h"
+#include "harness/workflow/history.h"
 
 namespace unseen::cli {
 
@@ -13,35 +13,28 @@ namespace {
 using json = nlohmann::json;
 
 // Every entry with its body as stored.
-Status PrintJson(const std::vector<Entry>& entries) {
+void PrintJson(std::vector<HistoryLine>& lines) {
   json out = json::array();
-  for (const Entry& e : entries) {
-    json body = json::parse(e.body, nullptr, /*allow_exceptions=*/false);
-    if (body.is_discarded()) {
-      return Status::Corruption("entry " + std::to_string(e.seq) + " (" + e.kind +
-                                "): the body is not JSON");
-    }
+  for (HistoryLine& l : lines) {
+    const Entry& e = l.entry;
     out.push_back({{"seq", e.seq},
                    {"kind", e.kind},
                    {"hash", ToHex(e.hash)},
                    {"prev_hash", ToHex(e.prev_hash)},
-                   {"body", std::move(body)}});
+                   {"body", std::move(l.body)}});
   }
   fmt::print("{}\n", out.dump());
-  return Status::OK();
 }
 
 // One line per entry: when, what kind, who, and what it did.
-Status PrintText(const std::vector<Entry>& entries) {
+void PrintText(const std::vector<HistoryLine>& lines) {
   fmt::print("{:>4}  {:<20}  {:<8}  {:<12}  {:<16}  {}\n", "seq", "time (UTC)", "kind", "actor",
              "hash", "what");
-  for (const Entry& e : entries) {
-    UNSEEN_ASSIGN_OR_RETURN(EntryStamp stamp, DecodeStamp(e));
-    UNSEEN_ASSIGN_OR_RETURN(std::string what, SummarizeEntry(e));
-    fmt::print("{:>4}  {:<20}  {:<8}  {:<12}  {:<16}  {}\n", e.seq, stamp.time, e.kind, stamp.actor,
-               ToHex(e.hash).substr(0, 16), what);
+  for (const HistoryLine& l : lines) {
+    const Entry& e = l.entry;
+    fmt::print("{:>4}  {:<20}  {:<8}  {:<12}  {:<16}  {}\n", e.seq, l.stamp.time, e.kind,
+               l.stamp.actor, ToHex(e.hash).substr(0, 16), l.summary);
   }
-  return Status::OK();
 }
 
 }  // namespace
@@ -52,9 +45,14 @@ Runner SetupHistory(CLI::App& app) {
   AddCommonOptions(cmd, opt.get());
   return [opt, cmd]() -> Status {
     if (!cmd->parsed()) return Status::OK();
-    UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(opt->ledger, LedgerMode::kReadOnly));
-    UNSEEN_ASSIGN_OR_RETURN(std::vector<Entry> entries, ledger->Entries());
-    return opt->json ? PrintJson(entries) : PrintText(entries);
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<HistoryLine> lines,
+                            ReadHistory(opt->ledger, /*with_summaries=*/!opt->json));
+    if (opt->json) {
+      PrintJson(lines);
+    } else {
+      PrintText(lines);
+    }
+    return Status::OK();
   };
 }
 
