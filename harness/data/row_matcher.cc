@@ -28,43 +28,37 @@ RowMatcher::RowMatcher(std::function<Result<MatchTables>()> load, MatchLayout la
       by_content_(by_content),
       dev_required_(dev_required),
       held_(held),
-      worker_([this] { Work(); }) {}
+      worker_([this] { Work(); }) {
+  if (!held) Release();
+}
 
 RowMatcher::~RowMatcher() {
   if (worker_.joinable()) (void)Finish();
 }
 
 std::unique_ptr<MatchBatch> RowMatcher::NewBatch() {
-  std::unique_lock<std::mutex> lock(mu_);
-  cv_.wait(lock, [this] { return outstanding_ < kMaxOutstanding || held_; });
-  ++outstanding_;
-  std::unique_ptr<MatchBatch> b;
-  if (free_.empty()) {
-    b = std::make_unique<MatchBatch>();
-  } else {
-    b = std::move(free_.back());
-    free_.pop_back();
-    b->Clear();
+  std::optional<std::unique_ptr<MatchBatch>> b = free_.TryPop();
+  if (!b) {
+    // None free: every batch is with the thread. Make one while fewer than kMaxOutstanding
+    // exist, or while held (the thread then takes nothing back); otherwise wait for one.
+    if (held_.load() || batches_.load() < kMaxOutstanding) {
+      batches_.fetch_add(1);
+      return std::make_unique<MatchBatch>();
+    }
+    b = free_.Pop();  // free_ is never closed, so this returns a batch
   }
-  return b;
+  (*b)->Clear();
+  return std::move(*b);
 }
 
 void RowMatcher::Add(std::unique_ptr<MatchBatch> batch) {
-  bool wake = false;
-  {
-    std::lock_guard<std::mutex> lock(mu_);
-    queue_.push_back(std::move(batch));
-    wake = !held_;  // a held thread waits for Release(), Stop() or Finish(), which wake it
-  }
-  if (wake) cv_.notify_all();
+  // A held thread takes nothing from queue_ until the hold ends, so the batches wait there.
+  (void)queue_.Push(std::move(batch));  // never full; closed only by Finish()
 }
 
 void RowMatcher::Release() {
-  {
-    std::lock_guard<std::mutex> lock(mu_);
-    held_ = false;
-  }
-  cv_.notify_all();
+  held_.store(false);
+  std::call_once(release_once_, [this] { release_.set_value(); });
 }
 
 void RowMatcher::Stop() {
@@ -73,20 +67,14 @@ void RowMatcher::Stop() {
 }
 
 MatchResult RowMatcher::Finish() {
-  {
-    std::lock_guard<std::mutex> lock(mu_);
-    stopping_ = true;
-  }
-  cv_.notify_all();
+  Release();       // Finish() ends a hold: what is queued must then be matched
+  queue_.Close();  // the thread matches what is queued, then returns
   worker_.join();
   return std::move(result_);
 }
 
 void RowMatcher::Work() {
-  {
-    std::unique_lock<std::mutex> lock(mu_);
-    cv_.wait(lock, [this] { return !held_ || stopping_; });
-  }
+  released_.wait();
   // Stopped while held: the tables are never needed.
   const bool needed = !stopped_.load(std::memory_order_relaxed);
   if (needed) {
@@ -102,23 +90,15 @@ void RowMatcher::Work() {
     content_.emplace(tables_.content_digests);
     holdout_features_.emplace(tables_.holdout_feature_digests);
   }
-  for (;;) {
-    std::unique_ptr<MatchBatch> b;
-    {
-      std::unique_lock<std::mutex> lock(mu_);
-      // Finish() ends a hold: what is queued must then be matched.
-      cv_.wait(lock, [this] { return stopping_ || (!queue_.empty() && !held_); });
-      if (queue_.empty()) return;
-      b = std::move(queue_.front());
-      queue_.pop_front();
+  while (std::optional<std::unique_ptr<MatchBatch>> b = queue_.Pop()) {
+    if (result_.status.ok() && !stopped_.load(std::memory_order_relaxed)) Match(**b);
+    if (batches_.load() > kMaxOutstanding) {
+      // More exist than NewBatch() allows, made during a hold: free this one, so that the
+      // reader waits, as it would have without the hold, until the matcher has caught up.
+      batches_.fetch_sub(1);
+    } else {
+      (void)free_.Push(std::move(*b));  // never full, never closed
     }
-    if (result_.status.ok() && !stopped_.load(std::memory_order_relaxed)) Match(*b);
-    {
-      std::lock_guard<std::mutex> lock(mu_);
-      free_.push_back(std::move(b));
-      --outstanding_;
-    }
-    cv_.notify_all();
   }
 }
 

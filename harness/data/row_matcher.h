@@ -16,10 +16,9 @@
 #define UNSEEN_HARNESS_DATA_ROW_MATCHER_H_
 
 #include <atomic>
-#include <condition_variable>
 #include <cstdint>
-#include <deque>
 #include <functional>
+#include <future>
 #include <memory>
 #include <mutex>
 #include <optional>
@@ -27,6 +26,7 @@
 #include <thread>
 #include <vector>
 
+#include "harness/data/bounded_queue.h"
 #include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
 #include "storage/row_set.h"
@@ -154,14 +154,22 @@ class RowMatcher {
   std::vector<std::string_view> fields_;  // of the record being encoded
   std::string scratch_;
 
-  std::mutex mu_;
-  std::condition_variable cv_;
-  std::deque<std::unique_ptr<MatchBatch>> queue_;  // added, not yet matched
-  std::vector<std::unique_ptr<MatchBatch>> free_;  // matched, for NewBatch()
-  size_t outstanding_ = 0;  // handed out by NewBatch() and not yet returned to free_
-  bool stopping_ = false;
-  bool held_;  // started held, and no Release() or Stop() since
+  // Batches go to the thread through queue_ and come back through free_, matched or not, for
+  // NewBatch() to reuse. Neither queue is bounded itself: what bounds them is the number of
+  // batches that exist (batches_), which NewBatch() keeps at kMaxOutstanding except while held.
+  using BatchQueue = BoundedQueue<std::unique_ptr<MatchBatch>>;
+  BatchQueue queue_{BatchQueue::kNoLimit};  // added, not yet matched
+  BatchQueue free_{BatchQueue::kNoLimit};   // matched, for NewBatch()
+  // Batches made by NewBatch() and not yet freed by the thread: with the caller, in queue_,
+  // being matched or in free_. Only NewBatch() adds and only the thread subtracts.
+  std::atomic<size_t> batches_{0};
+  std::atomic<bool> held_;  // started held, and no Release(), Stop() or Finish() since
   std::atomic<bool> stopped_{false};
+  // The end of the hold, which the thread waits for before anything else: made ready once, by
+  // the first Release(), Stop() or Finish() (at once when not held).
+  std::once_flag release_once_;
+  std::promise<void> release_;
+  std::future<void> released_ = release_.get_future();
   std::thread worker_;  // last: starts after every member above exists
 };
 

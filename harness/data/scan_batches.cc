@@ -1,5 +1,6 @@
 #include "harness/data/scan_batches.h"
 
+#include <algorithm>
 #include <charconv>
 #include <cmath>
 #include <cstring>
@@ -161,81 +162,73 @@ void ScanRows(const ScanLayout& layout, const ScanBatch& batch, size_t label_cap
 }
 
 ScanPipeline::ScanPipeline(ScanLayout layout, size_t label_cap, int workers, MergeFn merge)
-    : layout_(std::move(layout)), label_cap_(label_cap), merge_(std::move(merge)) {
+    : layout_(std::move(layout)),
+      label_cap_(label_cap),
+      merge_(std::move(merge)),
+      max_batches_(3 * static_cast<size_t>(std::max(workers, 0)) + 2),
+      queue_(max_batches_),
+      free_(max_batches_),
+      free_results_(BoundedQueue<std::unique_ptr<ScanResult>>::kNoLimit) {
   for (int i = 0; i < workers; ++i) workers_.emplace_back([this] { Work(); });
 }
 
 ScanPipeline::~ScanPipeline() { Finish(); }
 
 std::unique_ptr<ScanBatch> ScanPipeline::NewBatch() {
-  std::unique_lock<std::mutex> lock(mu_);
-  // Bounded memory: a few batches per worker queued or waiting to be merged.
-  cv_.wait(lock, [this] { return in_flight_ < 3 * workers_.size() + 2; });
-  if (free_.empty()) return std::make_unique<ScanBatch>();
-  std::unique_ptr<ScanBatch> b = std::move(free_.back());
-  free_.pop_back();
-  return b;
+  std::optional<std::unique_ptr<ScanBatch>> b = free_.TryPop();
+  if (b) return std::move(*b);
+  if (batches_ < max_batches_) {
+    ++batches_;
+    return std::make_unique<ScanBatch>();
+  }
+  // Every batch is in flight: wait until the next one is merged. free_ is never closed.
+  return std::move(*free_.Pop());
 }
 
 void ScanPipeline::Add(std::unique_ptr<ScanBatch> batch) {
-  {
-    std::lock_guard<std::mutex> lock(mu_);
-    batch->index = next_index_++;
-    queue_.push_back(std::move(batch));
-    ++in_flight_;
-  }
-  cv_.notify_all();
+  batch->index = next_index_++;
+  (void)queue_.Push(std::move(batch));  // never full; closed only by Finish()
 }
 
 void ScanPipeline::Work() {
-  std::unique_lock<std::mutex> lock(mu_);
-  for (;;) {
-    cv_.wait(lock, [this] { return !queue_.empty() || stopping_; });
-    if (queue_.empty()) return;
-    std::unique_ptr<ScanBatch> batch = std::move(queue_.front());
-    queue_.pop_front();
-    lock.unlock();
-    std::unique_ptr<ScanResult> result;
-    {
-      lock.lock();
-      if (!free_results_.empty()) {
-        result = std::move(free_results_.back());
-        free_results_.pop_back();
-      }
-      lock.unlock();
-    }
+  while (std::optional<std::unique_ptr<ScanBatch>> batch = queue_.Pop()) {
+    std::optional<std::unique_ptr<ScanResult>> result = free_results_.TryPop();
     if (!result) result = std::make_unique<ScanResult>();
-    ScanRows(layout_, *batch, label_cap_, result.get());
-    lock.lock();
-    const uint64_t index = batch->index;
-    done_.emplace(index, Done{std::move(batch), std::move(result)});
-    // One thread merges at a time, in batch order, outside the lock.
-    if (merging_) continue;
-    merging_ = true;
-    for (auto it = done_.find(next_merge_); it != done_.end(); it = done_.find(next_merge_)) {
-      Done d = std::move(it->second);
-      done_.erase(it);
-      lock.unlock();
-      merge_(*d.batch, *d.result);
-      d.batch->Clear();
-      lock.lock();
-      free_.push_back(std::move(d.batch));
-      free_results_.push_back(std::move(d.result));
-      ++next_merge_;
-      --in_flight_;
-      cv_.notify_all();
-    }
-    merging_ = false;
+    ScanRows(layout_, **batch, label_cap_, result->get());
+    MergeInOrder(Done{std::move(*batch), std::move(*result)});
   }
 }
 
+void ScanPipeline::MergeInOrder(Done done) {
+  std::unique_lock<std::mutex> lock(merge_mu_);
+  const uint64_t index = done.batch->index;
+  done_.emplace(index, std::move(done));
+  // One thread merges at a time, in batch order, outside the lock. A worker that finds another
+  // merging leaves its batch in done_; the merging one looks for the next batch under the lock
+  // before it stops, so no batch is left behind.
+  if (merging_) return;
+  merging_ = true;
+  for (auto it = done_.find(next_merge_); it != done_.end(); it = done_.find(next_merge_)) {
+    Done d = std::move(it->second);
+    done_.erase(it);
+    lock.unlock();
+    merge_(*d.batch, *d.result);
+    d.batch->Clear();
+    (void)free_.Push(std::move(d.batch));  // never full, never closed
+    (void)free_results_.Push(std::move(d.result));
+    lock.lock();
+    ++next_merge_;
+  }
+  merging_ = false;
+}
+
 void ScanPipeline::Finish() {
-  std::unique_lock<std::mutex> lock(mu_);
-  if (stopping_) return;
-  cv_.wait(lock, [this] { return in_flight_ == 0; });
-  stopping_ = true;
-  lock.unlock();
-  cv_.notify_all();
+  if (finished_) return;
+  finished_ = true;
+  // The workers scan what is queued and return once it is empty. The worker that files the
+  // next batch in order merges it and every later one already filed (MergeInOrder), so once all
+  // have returned, every batch added has been merged.
+  queue_.Close();
   for (std::thread& t : workers_) t.join();
 }
 

@@ -6,9 +6,7 @@
 #ifndef UNSEEN_HARNESS_DATA_SCAN_BATCHES_H_
 #define UNSEEN_HARNESS_DATA_SCAN_BATCHES_H_
 
-#include <condition_variable>
 #include <cstdint>
-#include <deque>
 #include <functional>
 #include <map>
 #include <memory>
@@ -20,6 +18,7 @@
 #include <unordered_map>
 #include <vector>
 
+#include "harness/data/bounded_queue.h"
 #include "storage/digest.h"
 #include "storage/merkle.h"
 
@@ -103,6 +102,7 @@ class ScanPipeline {
   ScanPipeline& operator=(const ScanPipeline&) = delete;
 
   // A cleared batch to fill; give it back with Add(). Blocks while enough batches are in flight.
+  // A batch dropped instead of added (on an error, before Finish()) still counts as in flight.
   std::unique_ptr<ScanBatch> NewBatch();
   void Add(std::unique_ptr<ScanBatch> batch);
   // Waits until every batch added has been merged, and stops the workers. Idempotent.
@@ -114,20 +114,28 @@ class ScanPipeline {
     std::unique_ptr<ScanResult> result;
   };
   void Work();
+  // Files `done` by its index, then merges every batch whose turn has come, unless another
+  // worker is merging: it then merges this one too when its turn comes.
+  void MergeInOrder(Done done);
 
   const ScanLayout layout_;
   const size_t label_cap_;
   const MergeFn merge_;
-  std::mutex mu_;
-  std::condition_variable cv_;
-  std::deque<std::unique_ptr<ScanBatch>> queue_;           // added, not yet taken
-  std::vector<std::unique_ptr<ScanBatch>> free_;           // cleared, for NewBatch()
-  std::vector<std::unique_ptr<ScanResult>> free_results_;  // merged, for reuse
-  std::map<uint64_t, Done> done_;                          // processed, waiting for their turn
-  uint64_t next_index_ = 0;                                // the next batch Add() numbers
-  uint64_t next_merge_ = 0;                                // the next batch to merge
-  size_t in_flight_ = 0;                                   // handed out and not yet merged
-  bool merging_ = false, stopping_ = false;
+  // Bounded memory: at most this many batches exist, each queued, being scanned, waiting to be
+  // merged, or cleared in free_ (a few per worker).
+  const size_t max_batches_;
+  size_t batches_ = 0;       // made by NewBatch() so far; the caller's thread only
+  uint64_t next_index_ = 0;  // the next batch Add() numbers; the caller's thread only
+  bool finished_ = false;    // the caller's thread only
+  // A batch is in one place at a time, so neither batch queue is ever full. Results are made by
+  // the workers as needed and are bounded the same way, but not as plainly: no limit.
+  BoundedQueue<std::unique_ptr<ScanBatch>> queue_;          // added, not yet taken
+  BoundedQueue<std::unique_ptr<ScanBatch>> free_;           // cleared, for NewBatch()
+  BoundedQueue<std::unique_ptr<ScanResult>> free_results_;  // merged, for reuse
+  std::mutex merge_mu_;                                     // guards the three below
+  std::map<uint64_t, Done> done_;                           // processed, waiting for their turn
+  uint64_t next_merge_ = 0;                                 // the next batch to merge
+  bool merging_ = false;                                    // a worker is merging
   std::vector<std::thread> workers_;
 };
 

@@ -1,5 +1,6 @@
 #include "harness/ledger/holdout_sealer.h"
 
+#include <optional>
 #include <utility>
 
 namespace unseen {
@@ -21,13 +22,11 @@ HoldoutSealer::HoldoutSealer(std::unique_ptr<SealedWriter> writer, char delimite
   worker_ = std::thread([this] { Work(); });
 }
 
-HoldoutSealer::~HoldoutSealer() {
+HoldoutSealer::~HoldoutSealer() { Stop(); }
+
+void HoldoutSealer::Stop() {
   if (!worker_.joinable()) return;
-  {
-    std::lock_guard<std::mutex> lock(mu_);
-    done_ = true;
-  }
-  cv_.notify_all();
+  full_.Close();
   worker_.join();
 }
 
@@ -37,52 +36,38 @@ Status HoldoutSealer::AddRow(std::string_view raw) {
   current_.ends.push_back(current_.text.size());
   current_.text.push_back('\n');
   if (current_.text.size() < kBatchBytes) return Status::OK();
-  Handoff();
-  std::lock_guard<std::mutex> lock(mu_);
-  return error_;
+  return Handoff();
 }
 
-void HoldoutSealer::Handoff() {
-  std::unique_lock<std::mutex> lock(mu_);
-  cv_.wait(lock, [this] { return !pending_full_; });
-  std::swap(pending_, current_);
-  pending_full_ = true;
-  lock.unlock();
-  cv_.notify_all();
-  current_.Clear();
+Status HoldoutSealer::Handoff() {
+  // Push() fails only once the worker has failed: the caller's thread closes full_ only after
+  // its last Handoff().
+  const bool taken = full_.Push(std::move(current_));
+  std::optional<Batch> reused = empty_.TryPop();
+  current_ = reused ? std::move(*reused) : Batch();
+  return taken ? Status::OK() : error_;
 }
 
 void HoldoutSealer::Work() {
-  Batch batch;
   std::string encoded;
-  for (;;) {
-    {
-      std::unique_lock<std::mutex> lock(mu_);
-      cv_.wait(lock, [this] { return pending_full_ || done_; });
-      if (!pending_full_) return;
-      std::swap(batch, pending_);
-      pending_full_ = false;
-    }
-    cv_.notify_all();
+  while (std::optional<Batch> batch = full_.Pop()) {
     encoded.clear();
-    encoder_.AddBlock(batch.text, batch.starts, batch.ends, &encoded);
+    encoder_.AddBlock(batch->text, batch->starts, batch->ends, &encoded);
     Status s = writer_->Append(encoded);
-    batch.Clear();
     if (!s.ok()) {
-      std::lock_guard<std::mutex> lock(mu_);
-      if (error_.ok()) error_ = s;
+      // The blob is lost: stop, and let the caller's next Handoff() fail rather than wait.
+      error_ = std::move(s);
+      full_.Close();
+      return;
     }
+    batch->Clear();
+    (void)empty_.Push(std::move(*batch));  // never closed, never full
   }
 }
 
 Result<std::string> HoldoutSealer::Finish() {
-  if (!current_.starts.empty()) Handoff();
-  {
-    std::lock_guard<std::mutex> lock(mu_);
-    done_ = true;
-  }
-  cv_.notify_all();
-  worker_.join();
+  if (!current_.starts.empty()) (void)Handoff();  // a failure is in error_, read below
+  Stop();
   // The worker has stopped: its state is ours to read.
   if (!error_.ok()) return error_;
   return writer_->Finish();

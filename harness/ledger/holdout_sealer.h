@@ -7,14 +7,13 @@
 #ifndef UNSEEN_HARNESS_LEDGER_HOLDOUT_SEALER_H_
 #define UNSEEN_HARNESS_LEDGER_HOLDOUT_SEALER_H_
 
-#include <condition_variable>
 #include <memory>
-#include <mutex>
 #include <string>
 #include <string_view>
 #include <thread>
 #include <vector>
 
+#include "harness/data/bounded_queue.h"
 #include "harness/data/holdout_rows.h"
 #include "storage/seal_crypto.h"
 #include "storage/sealed_blob.h"
@@ -55,20 +54,25 @@ class HoldoutSealer {
   };
 
   HoldoutSealer(std::unique_ptr<SealedWriter> writer, char delimiter, size_t columns);
-  void Handoff();  // passes current_ to the worker; waits while it is busy
+  // Passes current_ to the worker, waiting while a batch already waits, and takes a cleared one
+  // to fill. Returns the worker's error if it has failed (it then closed full_).
+  Status Handoff();
   void Work();
+  void Stop();  // closes full_ and joins the worker, which seals what is queued first
 
   static constexpr size_t kBatchBytes = size_t{1} << 20;
 
   std::unique_ptr<SealedWriter> writer_;  // used by the worker only, once it runs
   HoldoutRowsEncoder encoder_;            // likewise
   Batch current_;                         // the caller's batch
-  Batch pending_;                         // the batch handed over, guarded by mu_
-  bool pending_full_ = false, done_ = false;
-  Status error_;  // the worker's first error, guarded by mu_
-  std::mutex mu_;
-  std::condition_variable cv_;
-  std::thread worker_;
+  // Filled batches go to the worker through full_, one waiting at most, so that the reader is
+  // at most two batches ahead; they come back cleared through empty_ for reuse (three exist).
+  BoundedQueue<Batch> full_{1};
+  BoundedQueue<Batch> empty_{BoundedQueue<Batch>::kNoLimit};
+  // The worker's first error. It writes it before closing full_ and then stops, so the caller
+  // reads it only after a Push() that failed or after joining the worker.
+  Status error_;
+  std::thread worker_;  // last: starts after every member above exists
 };
 
 }  // namespace unseen

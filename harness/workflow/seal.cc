@@ -6,16 +6,16 @@
 
 #include <algorithm>
 #include <array>
-#include <condition_variable>
 #include <cstdlib>
 #include <cstring>
 #include <future>
 #include <memory>
-#include <mutex>
+#include <optional>
 #include <thread>
 #include <unordered_map>
 #include <unordered_set>
 
+#include "harness/data/bounded_queue.h"
 #include "harness/data/csv.h"
 #include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
@@ -149,21 +149,15 @@ class DevRows {
     }
     if (static_cast<size_t>(span_end_ - span_begin_) >= kSpanBytes) EndSpan();
     if (current_.bytes < kBatchBytes) return Status::OK();
-    Handoff();
-    std::lock_guard<std::mutex> lock(mu_);
-    return error_;
+    return Handoff();
   }
 
   // Writes what is left and stops the worker; returns its first error.
   Status Finish() {
     if (worker_.joinable()) {
       EndSpan();
-      if (!current_.pieces.empty()) Handoff();
-      {
-        std::lock_guard<std::mutex> lock(mu_);
-        done_ = true;
-      }
-      cv_.notify_all();
+      if (!current_.pieces.empty()) (void)Handoff();  // a failure is in error_, returned below
+      full_.Close();  // the worker writes what is queued, then returns
       worker_.join();
     }
     return error_;
@@ -180,6 +174,11 @@ class DevRows {
     std::vector<Piece> pieces;
     std::string owned;
     size_t bytes = 0;
+    void Clear() {
+      pieces.clear();
+      owned.clear();
+      bytes = 0;
+    }
   };
 
   void EndSpan() {
@@ -191,49 +190,46 @@ class DevRows {
     span_begin_ = span_end_ = nullptr;
   }
 
-  void Handoff() {
-    std::unique_lock<std::mutex> lock(mu_);
-    cv_.wait(lock, [this] { return !pending_full_; });
-    std::swap(pending_, current_);
-    pending_full_ = true;
-    lock.unlock();
-    cv_.notify_all();
-    current_.pieces.clear();
-    current_.owned.clear();
-    current_.bytes = 0;
+  // Passes current_ to the worker, waiting while a batch already waits, and takes a cleared
+  // one to fill. Push() fails only once the worker has failed: this thread closes full_ only
+  // after its last Handoff().
+  Status Handoff() {
+    const bool taken = full_.Push(std::move(current_));
+    std::optional<Batch> reused = empty_.TryPop();
+    current_ = reused ? std::move(*reused) : Batch();
+    return taken ? Status::OK() : error_;
   }
 
   void Work() {
-    Batch batch;
-    for (;;) {
-      {
-        std::unique_lock<std::mutex> lock(mu_);
-        cv_.wait(lock, [this] { return pending_full_ || done_; });
-        if (!pending_full_) return;
-        std::swap(batch, pending_);
-        pending_full_ = false;
-      }
-      cv_.notify_all();
+    while (std::optional<Batch> batch = full_.Pop()) {
       Status s;
-      for (const Piece& p : batch.pieces) {
-        const char* at = p.data ? p.data : batch.owned.data() + p.offset;
-        if (s.ok()) s = file_->Write(std::string_view(at, p.size));
+      for (const Piece& p : batch->pieces) {
+        const char* at = p.data ? p.data : batch->owned.data() + p.offset;
+        s = file_->Write(std::string_view(at, p.size));
+        if (!s.ok()) break;
       }
       if (!s.ok()) {
-        std::lock_guard<std::mutex> lock(mu_);
-        if (error_.ok()) error_ = s;
+        // The dev file is lost: stop, and let the caller's next Handoff() fail, not wait.
+        error_ = std::move(s);
+        full_.Close();
+        return;
       }
+      batch->Clear();
+      (void)empty_.Push(std::move(*batch));  // never closed, never full
     }
   }
 
   StagedFile* file_;
   const char* span_begin_ = nullptr;
   const char* span_end_ = nullptr;
-  Batch current_, pending_;
-  bool pending_full_ = false, done_ = false;
+  Batch current_;  // the caller's
+  // Filled batches go to the worker through full_, one waiting at most, so that the reader is
+  // at most two batches ahead; they come back cleared through empty_ for reuse (three exist).
+  BoundedQueue<Batch> full_{1};
+  BoundedQueue<Batch> empty_{BoundedQueue<Batch>::kNoLimit};
+  // The worker's first error. It writes it before closing full_ and then stops, so the caller
+  // reads it only after a Push() that failed or after joining the worker.
   Status error_;
-  std::mutex mu_;
-  std::condition_variable cv_;
   std::thread worker_;  // last: starts after every member above exists
 };
 
