@@ -271,28 +271,54 @@ Status WriteRows(const CsvFile& csv, const SourceInfo& src, const SplitResult& s
   return Status::OK();
 }
 
-}  // namespace
+// Everything one `seal` call knows, step by step. Members that a thread or a
+// future reads are declared before that future, so that on an early return
+// the future (which waits for its task) is destroyed first.
+struct SealRun {
+  const SealRequest* req = nullptr;
+  std::unique_ptr<Ledger> ledger;
+  LedgerState state;
+  std::string data;  // the source file to read
+  SealReport report;
+  std::unique_ptr<CsvFile> csv;
+  std::future<Result<FileDigest>> file_digest;  // the file's SHA-256, beside the passes
+  SplitRequest time_keys;
+  std::vector<uint32_t> group_of_row;
+  SplitResult split;
+  std::vector<uint32_t> flagged;  // holdout rows with an exact duplicate in dev
+  BlobRef holdout_ref;
+  std::unique_ptr<StagedFile> dev;
+  Pass2Output out;
+  std::array<BlobRef, 3> refs;  // dev row set, sealed rows, feature digests
+};
 
-Result<SealReport> SealHoldout(const SealRequest& req) {
+// Options that can be checked before the ledger is opened.
+Status CheckOptions(const SealRequest& req) {
   if (!(req.fraction > 0 && req.fraction < 1)) {
     return Status::InvalidArgument("--fraction: expected a number strictly between 0 and 1");
   }
   if (req.dev_out.empty()) return Status::InvalidArgument("--dev-out: a path is required");
-  UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
-  UNSEEN_RETURN_IF_ERROR(ledger->Begin());
-  UNSEEN_ASSIGN_OR_RETURN(LedgerState state, ReadLedgerState(*ledger));
-  if (state.seal) {
+  return Status::OK();
+}
+
+// The ledger, in the command's transaction, not sealed yet; the strategy fits the source.
+Status OpenRun(SealRun* run) {
+  const SealRequest& req = *run->req;
+  UNSEEN_ASSIGN_OR_RETURN(run->ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
+  UNSEEN_RETURN_IF_ERROR(run->ledger->Begin());
+  UNSEEN_ASSIGN_OR_RETURN(run->state, ReadLedgerState(*run->ledger));
+  if (run->state.seal) {
     return Status::FailedPrecondition(req.ledger_path + ": already sealed at entry " +
-                                      std::to_string(state.seal->entry_seq) +
+                                      std::to_string(run->state.seal->entry_seq) +
                                       "; a ledger has one holdout and it is sealed once");
   }
-  const SourceInfo& src = state.source;
-  std::string data = req.data_path.empty() ? state.source_abs_path : req.data_path;
-  if (SameFile(data, req.dev_out)) {
+  const SourceInfo& src = run->state.source;
+  run->data = req.data_path.empty() ? run->state.source_abs_path : req.data_path;
+  if (SameFile(run->data, req.dev_out)) {
     return Status::InvalidArgument("--dev-out: " + req.dev_out + " is the data file itself");
   }
   if (src.rows > kMaxSplitRows) return Status::InvalidArgument("source has too many rows to split");
-  SealReport report;
+  SealReport& report = run->report;
   report.has_group = src.ColumnOf(ColumnRole::kGroup).has_value();
   report.has_time = src.ColumnOf(ColumnRole::kTime).has_value();
   if (req.strategy == SplitStrategy::kGroup && !report.has_group) {
@@ -305,128 +331,163 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   if (req.strategy == SplitStrategy::kStratified && src.task != TaskKind::kClassification) {
     return Status::InvalidArgument("--strategy stratified: needs a classification target");
   }
+  return Status::OK();
+}
 
+// Opens the file and starts its digest: the file must be the one registered, and its digest
+// runs beside the passes, over the mapping the rows are read from.
+Status OpenSource(SealRun* run) {
   CsvOptions csv_options;
-  csv_options.delimiter = src.delimiter;
-  auto csv = CsvFile::Open(data, csv_options);
-  if (!csv.ok()) return csv.status();
-  // The file must be the one registered: its digest runs beside the passes, over the mapping
-  // the rows are read from.
-  const CsvFile& file = **csv;
-  auto file_digest = std::async(std::launch::async, [&file] { return file.Sha256(); });
-  auto check_file = [&]() -> Status {
-    auto fd = file_digest.get();
-    if (!fd.ok()) return fd.status();
-    if (fd->sha256 != src.file_sha256 || fd->size != src.file_size) {
-      return Status::InvalidArgument(data + ": the file's SHA-256 is " + ToHex(fd->sha256) +
-                                     " but the source registered at init has " +
-                                     ToHex(src.file_sha256) + "; expected the same file");
-    }
-    return Status::OK();
-  };
+  csv_options.delimiter = run->state.source.delimiter;
+  UNSEEN_ASSIGN_OR_RETURN(run->csv, CsvFile::Open(run->data, csv_options));
+  const CsvFile& file = *run->csv;
+  run->file_digest = std::async(std::launch::async, [&file] { return file.Sha256(); });
+  return Status::OK();
+}
+
+// InvalidArgument unless the file read is the source registered at init.
+Status CheckSourceFile(SealRun* run) {
+  const SourceInfo& src = run->state.source;
+  auto fd = run->file_digest.get();
+  if (!fd.ok()) return fd.status();
+  if (fd->sha256 != src.file_sha256 || fd->size != src.file_size) {
+    return Status::InvalidArgument(run->data + ": the file's SHA-256 is " + ToHex(fd->sha256) +
+                                   " but the source registered at init has " +
+                                   ToHex(src.file_sha256) + "; expected the same file");
+  }
+  return Status::OK();
+}
+
+// Pass 1 (only when a strategy or a violation count needs keys), then the split.
+Status SplitRows(SealRun* run) {
+  const SealRequest& req = *run->req;
+  const SourceInfo& src = run->state.source;
   SplitRequest split_req;
   split_req.strategy = req.strategy;
   split_req.fraction = req.fraction;
   split_req.seed = req.seed;
   split_req.rows = src.rows;
-  std::vector<uint32_t> group_of_row;
-  SplitRequest time_keys;
-  if (req.strategy != SplitStrategy::kRandom || report.has_group || report.has_time) {
-    UNSEEN_RETURN_IF_ERROR(ReadSplitKeys(**csv, src, &split_req, &group_of_row, &time_keys));
+  if (req.strategy != SplitStrategy::kRandom || run->report.has_group || run->report.has_time) {
+    UNSEEN_RETURN_IF_ERROR(
+        ReadSplitKeys(*run->csv, src, &split_req, &run->group_of_row, &run->time_keys));
   }
-  if (req.strategy == SplitStrategy::kGroup) split_req.labels = group_of_row;
+  if (req.strategy == SplitStrategy::kGroup) split_req.labels = run->group_of_row;
   if (req.strategy == SplitStrategy::kTime) {
-    split_req.time_numeric = time_keys.time_numeric;
-    split_req.time_text = time_keys.time_text;
+    split_req.time_numeric = run->time_keys.time_numeric;
+    split_req.time_text = run->time_keys.time_text;
   }
-  UNSEEN_ASSIGN_OR_RETURN(SplitResult split, Split(split_req));
+  UNSEEN_ASSIGN_OR_RETURN(run->split, Split(split_req));
+  return Status::OK();
+}
 
-  // Exact duplicates across the cut are a leak: report, and optionally drop. Dropping them
-  // changes the split, so it happens now; otherwise they are found after pass 2, while the dev
-  // file reaches the disk.
-  auto cross_duplicates = [&]() -> Result<std::vector<uint32_t>> {
-    UNSEEN_ASSIGN_OR_RETURN(std::string content, ledger->GetBlob(state.content_digests));
-    if (content.size() != src.rows * sizeof(RowDigest)) {
-      return Status::Corruption("the content digest list does not match the source's row count");
-    }
-    return CrossDuplicates(content, split, &report.cross_duplicate_dev_rows);
-  };
-  std::vector<uint32_t> flagged;
-  if (req.drop_cross_duplicates) {
-    UNSEEN_ASSIGN_OR_RETURN(flagged, cross_duplicates());
-    if (!flagged.empty()) {
-      MoveToDev(flagged, &split);
+// Exact duplicates across the cut are a leak: the holdout rows whose content digest is also a
+// dev row's.
+Result<std::vector<uint32_t>> FindCrossDuplicates(SealRun* run) {
+  UNSEEN_ASSIGN_OR_RETURN(std::string content, run->ledger->GetBlob(run->state.content_digests));
+  if (content.size() != run->state.source.rows * sizeof(RowDigest)) {
+    return Status::Corruption("the content digest list does not match the source's row count");
+  }
+  return CrossDuplicates(content, run->split, &run->report.cross_duplicate_dev_rows);
+}
+
+// Dropping cross-duplicates changes the split, so it happens before pass 2; then the group and
+// time violations of the final split.
+Status SettleSplit(SealRun* run) {
+  SealReport& report = run->report;
+  if (run->req->drop_cross_duplicates) {
+    UNSEEN_ASSIGN_OR_RETURN(run->flagged, FindCrossDuplicates(run));
+    if (!run->flagged.empty()) {
+      MoveToDev(run->flagged, &run->split);
       report.dropped_cross_duplicates = true;
     }
   }
-  if (report.has_group) report.group_violations = CountGroupViolations(group_of_row, split.holdout);
-  if (report.has_time) {
-    time_keys.strategy = SplitStrategy::kTime;
-    report.time_violations = CountTimeViolations(time_keys, split);
+  if (report.has_group) {
+    report.group_violations = CountGroupViolations(run->group_of_row, run->split.holdout);
   }
+  if (report.has_time) {
+    run->time_keys.strategy = SplitStrategy::kTime;
+    report.time_violations = CountTimeViolations(run->time_keys, run->split);
+  }
+  return Status::OK();
+}
 
+// The first few holdout rows with a duplicate in dev, by their line in the file.
+void NoteDuplicateLines(SealRun* run) {
+  const std::vector<uint32_t>& holdout = run->split.holdout;
+  for (uint32_t row : run->flagged) {
+    if (run->out.duplicate_lines.size() == kShownDuplicateLines) break;
+    const auto at = std::lower_bound(holdout.begin(), holdout.end(), row);
+    run->out.duplicate_lines.push_back(
+        run->out.holdout_lines[static_cast<size_t>(at - holdout.begin())]);
+  }
+}
+
+// Pass 2: the dev file written and the holdout sealed, in one read of the file. Without
+// dropping, the cross-duplicates are looked for beside it (it does not touch the ledger),
+// then the blobs are stored while the dev file reaches the disk (fsync) on another thread.
+Status WriteAndStore(SealRun* run) {
+  const SealRequest& req = *run->req;
   // The holdout's row set binds the sealed blob (its digest is in the AAD): it comes first.
   UNSEEN_ASSIGN_OR_RETURN(
-      BlobRef holdout_ref,
-      ledger->PutBlob("row-set", RowSet::FromSorted(split.holdout).Serialize()));
-  StagedFile dev(req.dev_out, "--dev-out");
-  UNSEEN_RETURN_IF_ERROR(dev.Open());
-  Pass2Output out;
+      run->holdout_ref,
+      run->ledger->PutBlob("row-set", RowSet::FromSorted(run->split.holdout).Serialize()));
+  run->dev = std::make_unique<StagedFile>(req.dev_out, "--dev-out");
+  UNSEEN_RETURN_IF_ERROR(run->dev->Open());
   const bool find_later = !req.drop_cross_duplicates;
-  if (find_later) out.holdout_lines.reserve(split.holdout.size());
-  std::string aad = SealedAad(state.ledger_id, holdout_ref.digest);
-  // Without dropping, the duplicates are looked for beside pass 2, which does not touch the
-  // ledger (the ledger part below waits for them before it does).
+  if (find_later) run->out.holdout_lines.reserve(run->split.holdout.size());
+  const std::string aad = SealedAad(run->state.ledger_id, run->holdout_ref.digest);
   std::future<Result<std::vector<uint32_t>>> later_duplicates;
-  if (find_later) later_duplicates = std::async(std::launch::async, cross_duplicates);
-  Status written = WriteRows(**csv, src, split, find_later, req.key, aad, &dev, &out, req.progress);
+  if (find_later) later_duplicates = std::async(std::launch::async, FindCrossDuplicates, run);
+  Status written = WriteRows(*run->csv, run->state.source, run->split, find_later, req.key, aad,
+                             run->dev.get(), &run->out, req.progress);
   // A file changed since init fails here, whatever the pass made of its bytes.
-  UNSEEN_RETURN_IF_ERROR(check_file());
+  UNSEEN_RETURN_IF_ERROR(CheckSourceFile(run));
   UNSEEN_RETURN_IF_ERROR(written);
-  // The dev file reaches the disk (fsync) on another thread while this one finishes the
-  // ledger's part; the commit waits for both.
-  std::future<Status> closing =
-      std::async(std::launch::async, [&dev, &report] { return dev.Close(&report.dev_out_sha256); });
-  auto ledger_part = [&]() -> Result<std::array<BlobRef, 3>> {
+  std::future<Status> closing = std::async(std::launch::async, [run] {
+    return run->dev->Close(&run->report.dev_out_sha256);
+  });
+  auto store = [&]() -> Status {
     if (find_later) {
-      UNSEEN_ASSIGN_OR_RETURN(flagged, later_duplicates.get());
+      UNSEEN_ASSIGN_OR_RETURN(run->flagged, later_duplicates.get());
     }
-    UNSEEN_ASSIGN_OR_RETURN(BlobRef sealed_ref, ledger->PutBlob("sealed-rows", out.sealed));
-    UNSEEN_ASSIGN_OR_RETURN(BlobRef feat_ref,
-                            ledger->PutBlob("feature-digests", out.feature_digests));
-    out.sealed = std::string();
-    out.feature_digests = std::string();
-    if (find_later) {
-      // The first few holdout rows with a duplicate in dev, by their line in the file.
-      for (uint32_t row : flagged) {
-        if (out.duplicate_lines.size() == kShownDuplicateLines) break;
-        const auto at = std::lower_bound(split.holdout.begin(), split.holdout.end(), row);
-        out.duplicate_lines.push_back(
-            out.holdout_lines[static_cast<size_t>(at - split.holdout.begin())]);
-      }
-    }
-    UNSEEN_ASSIGN_OR_RETURN(BlobRef dev_ref,
-                            ledger->PutBlob("row-set", RowSet::FromSorted(split.dev).Serialize()));
-    return std::array<BlobRef, 3>{dev_ref, sealed_ref, feat_ref};
+    Ledger* ledger = run->ledger.get();
+    UNSEEN_ASSIGN_OR_RETURN(run->refs[1], ledger->PutBlob("sealed-rows", run->out.sealed));
+    UNSEEN_ASSIGN_OR_RETURN(run->refs[2],
+                            ledger->PutBlob("feature-digests", run->out.feature_digests));
+    run->out.sealed = std::string();
+    run->out.feature_digests = std::string();
+    if (find_later) NoteDuplicateLines(run);
+    UNSEEN_ASSIGN_OR_RETURN(
+        run->refs[0], ledger->PutBlob("row-set", RowSet::FromSorted(run->split.dev).Serialize()));
+    return Status::OK();
   };
-  Result<std::array<BlobRef, 3>> refs = ledger_part();
+  Status stored = store();
   UNSEEN_RETURN_IF_ERROR(closing.get());
-  if (!refs.ok()) return refs.status();
-  report.cross_duplicate_holdout_rows = flagged.size();
-  const auto& [dev_ref, sealed_ref, feat_ref] = *refs;
+  UNSEEN_RETURN_IF_ERROR(stored);
+  run->report.cross_duplicate_holdout_rows = run->flagged.size();
+  return Status::OK();
+}
 
+// The seal entry, the commit, and only then the dev file at its path.
+Status RecordSeal(SealRun* run) {
+  const SealRequest& req = *run->req;
+  const SplitResult& split = run->split;
+  const SealReport& report = run->report;
+  const auto& [dev_ref, sealed_ref, feat_ref] = run->refs;
   SealBody body;
-  body.source_entry = state.source_seq;
+  body.source_entry = run->state.source_seq;
   body.strategy = SplitStrategyName(req.strategy);
   body.fraction = req.fraction;
   body.seed = req.seed;
   body.requested_holdout = split.requested_holdout;
   body.split_note = split.note;
-  body.holdout = {split.holdout.size(), holdout_ref.digest, sealed_ref.digest, feat_ref.digest,
-                  "AES-256-GCM", "zstd", kHoldoutEncodingColumns};
-  body.dev = {split.dev.size(), dev_ref.digest, req.dev_out, report.dev_out_sha256, dev.size()};
+  body.holdout = {split.holdout.size(), run->holdout_ref.digest, sealed_ref.digest,
+                  feat_ref.digest,      "AES-256-GCM",           "zstd",
+                  kHoldoutEncodingColumns};
+  body.dev = {split.dev.size(), dev_ref.digest, req.dev_out, report.dev_out_sha256,
+              run->dev->size()};
   body.key = req.key_info;
-  body.key.key_check_hex = ToHex(KeyCheck(req.key, state.ledger_id));
+  body.key.key_check_hex = ToHex(KeyCheck(req.key, run->state.ledger_id));
   body.cross_duplicate_holdout_rows = report.cross_duplicate_holdout_rows;
   body.cross_duplicate_dev_rows = report.cross_duplicate_dev_rows;
   body.cross_duplicates_moved_to_dev = report.dropped_cross_duplicates;
@@ -435,19 +496,36 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   body.budget_queries = req.budget_queries;
   body.budget_half_width = req.budget_half_width;  // recorded only when positive
   body.budget_delta = req.budget_delta;
-  UNSEEN_ASSIGN_OR_RETURN(Entry entry, AppendEntry(ledger.get(), req.actor, body,
-                                                   {holdout_ref, dev_ref, sealed_ref, feat_ref}));
-  UNSEEN_RETURN_IF_ERROR(ledger->Commit());
-  UNSEEN_RETURN_IF_ERROR(dev.MoveIntoPlace());
+  UNSEEN_ASSIGN_OR_RETURN(Entry entry,
+                          AppendEntry(run->ledger.get(), req.actor, body,
+                                      {run->holdout_ref, dev_ref, sealed_ref, feat_ref}));
+  UNSEEN_RETURN_IF_ERROR(run->ledger->Commit());
+  UNSEEN_RETURN_IF_ERROR(run->dev->MoveIntoPlace());
+  run->report.head = entry.hash;
+  return Status::OK();
+}
 
-  UNSEEN_ASSIGN_OR_RETURN(LedgerState after, ReadLedgerState(*ledger));
+}  // namespace
+
+Result<SealReport> SealHoldout(const SealRequest& req) {
+  UNSEEN_RETURN_IF_ERROR(CheckOptions(req));
+  auto run = std::make_unique<SealRun>();
+  run->req = &req;
+  UNSEEN_RETURN_IF_ERROR(OpenRun(run.get()));
+  UNSEEN_RETURN_IF_ERROR(OpenSource(run.get()));
+  UNSEEN_RETURN_IF_ERROR(SplitRows(run.get()));
+  UNSEEN_RETURN_IF_ERROR(SettleSplit(run.get()));
+  UNSEEN_RETURN_IF_ERROR(WriteAndStore(run.get()));
+  UNSEEN_RETURN_IF_ERROR(RecordSeal(run.get()));
+
+  SealReport& report = run->report;
+  UNSEEN_ASSIGN_OR_RETURN(LedgerState after, ReadLedgerState(*run->ledger));
   report.seal = *after.seal;
-  report.requested_holdout = split.requested_holdout;
-  report.split_note = split.note;
-  report.cross_duplicate_lines = out.duplicate_lines;
-  report.sealed_bytes = sealed_ref.size;
-  report.head = entry.hash;
-  return report;
+  report.requested_holdout = run->split.requested_holdout;
+  report.split_note = run->split.note;
+  report.cross_duplicate_lines = run->out.duplicate_lines;
+  report.sealed_bytes = run->refs[1].size;
+  return std::move(report);
 }
 
 }  // namespace unseen
