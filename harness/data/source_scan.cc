@@ -151,6 +151,64 @@ Status CheckDuplicateIds(const CsvFile& csv, Tally* t, size_t id_col) {
   return Status::OK();
 }
 
+// A record's role cells: the target is present (and a number for a declared regression
+// task), and so are the id, group and time. InvalidArgument at the cell otherwise.
+Status CheckRoleCells(const CsvFile& csv, const CsvRecord& r, const RoleColumns& rc,
+                      const SourceInfo& info, bool regression_declared) {
+  const std::string_view target = (*r.fields)[rc.target];
+  if (IsMissing(target)) return RequireValue(csv, r, rc.target, "target");
+  double v;
+  if (regression_declared && !ParseNumber(target, &v)) {
+    return Status::InvalidArgument(csv.Location(csv.FieldOffset(r, rc.target)) + ": target '" +
+                                   std::string(target) +
+                                   "' is not a number; a regression task expects numbers");
+  }
+  for (const auto& col : {rc.id, rc.group, rc.time}) {
+    if (col) {
+      UNSEEN_RETURN_IF_ERROR(RequireValue(csv, r, *col, ColumnRoleName(info.columns[*col].role)));
+    }
+  }
+  return Status::OK();
+}
+
+// Column types from the tally: numeric when every present cell is a number.
+void SetColumnTypes(const Tally& t, SourceInfo* info) {
+  for (size_t c = 0; c < info->columns.size(); ++c) {
+    info->columns[c].missing = t.missing[c];
+    bool numeric = t.numeric[c] > 0 && t.numeric[c] + t.missing[c] == info->rows;
+    info->columns[c].type = numeric ? ColumnType::kNumeric : ColumnType::kCategorical;
+  }
+}
+
+// The task (declared, or guessed from the target) and the target's summary.
+Status SetTask(const Tally& t, const ScanOptions& options, SourceInfo* info) {
+  if (options.task) {
+    info->task = *options.task;
+  } else {
+    bool few_integers = t.target_all_numeric && t.target_all_integer &&
+                        t.labels.size() <= kMaxAutoClasses;
+    info->task = (!t.target_all_numeric || few_integers) ? TaskKind::kClassification
+                                                         : TaskKind::kRegression;
+  }
+  if (info->task == TaskKind::kClassification) {
+    if (t.labels.size() > kMaxClasses) {
+      return Status::InvalidArgument("--target: column '" + options.roles.target +
+                                     "' has more than " + std::to_string(kMaxClasses) +
+                                     " distinct values; a classification target expects fewer");
+    }
+    if (t.labels.size() < 2) {
+      return Status::InvalidArgument("--target: column '" + options.roles.target +
+                                     "' has a single value; expected at least two classes");
+    }
+    info->target.classes = t.labels.Counts();
+  } else {
+    info->target.min = t.tmin;
+    info->target.max = t.tmax;
+    info->target.mean = t.tsum / static_cast<double>(info->rows);
+  }
+  return Status::OK();
+}
+
 }  // namespace
 
 std::string CanonicalLabel(std::string_view cell) {
@@ -193,19 +251,8 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
   std::unique_ptr<internal::ScanBatch> batch;
 
   Status parsed = csv->ForEachRecord([&](const CsvRecord& r) -> Status {
-    const auto& f = *r.fields;
-    const std::string_view target = f[rc.target];
-    if (IsMissing(target)) return RequireValue(*csv, r, rc.target, "target");
-    double v;
-    if (regression_declared && !ParseNumber(target, &v)) {
-      return Status::InvalidArgument(csv->Location(csv->FieldOffset(r, rc.target)) + ": target '" +
-                                     std::string(target) +
-                                     "' is not a number; a regression task expects numbers");
-    }
-    for (const auto& col : {rc.id, rc.group, rc.time}) {
-      if (col) UNSEEN_RETURN_IF_ERROR(RequireValue(*csv, r, *col, ColumnRoleName(info.columns[*col].role)));
-    }
-    if (rc.id) t.id_hashes.emplace_back(Fnv1a(f[*rc.id]), r.offset);
+    UNSEEN_RETURN_IF_ERROR(CheckRoleCells(*csv, r, rc, info, regression_declared));
+    if (rc.id) t.id_hashes.emplace_back(Fnv1a((*r.fields)[*rc.id]), r.offset);
     if (!batch) batch = pipeline.NewBatch();
     AddToBatch(r, batch.get());
     if (++batch->rows == internal::kScanBatchRows ||
@@ -236,35 +283,8 @@ Result<SourceScan> ScanSource(const std::string& path, const ScanOptions& option
   if (rc.id) UNSEEN_RETURN_IF_ERROR(CheckDuplicateIds(*csv, &t, *rc.id));
   info.merkle_root = merkle_root;
 
-  for (size_t c = 0; c < ncol; ++c) {
-    info.columns[c].missing = t.missing[c];
-    bool numeric = t.numeric[c] > 0 && t.numeric[c] + t.missing[c] == info.rows;
-    info.columns[c].type = numeric ? ColumnType::kNumeric : ColumnType::kCategorical;
-  }
-  if (options.task) {
-    info.task = *options.task;
-  } else {
-    bool few_integers = t.target_all_numeric && t.target_all_integer &&
-                        t.labels.size() <= kMaxAutoClasses;
-    info.task = (!t.target_all_numeric || few_integers) ? TaskKind::kClassification
-                                                        : TaskKind::kRegression;
-  }
-  if (info.task == TaskKind::kClassification) {
-    if (t.labels.size() > kMaxClasses) {
-      return Status::InvalidArgument("--target: column '" + options.roles.target + "' has more than " +
-                                     std::to_string(kMaxClasses) +
-                                     " distinct values; a classification target expects fewer");
-    }
-    if (t.labels.size() < 2) {
-      return Status::InvalidArgument("--target: column '" + options.roles.target +
-                                     "' has a single value; expected at least two classes");
-    }
-    info.target.classes = t.labels.Counts();
-  } else {
-    info.target.min = t.tmin;
-    info.target.max = t.tmax;
-    info.target.mean = t.tsum / static_cast<double>(info.rows);
-  }
+  SetColumnTypes(t, &info);
+  UNSEEN_RETURN_IF_ERROR(SetTask(t, options, &info));
   if (options.progress) options.progress(1.0);
   return scan;
 }
