@@ -3,6 +3,8 @@
 #include <SQLiteCpp/SQLiteCpp.h>
 #include <gtest/gtest.h>
 
+#include <nlohmann/json.hpp>
+
 #include <string>
 #include <utility>
 #include <vector>
@@ -63,6 +65,15 @@ class EntriesTamperTest : public ::testing::Test {
     for (const auto& [_, text] : triggers) db.exec(text);
   }
 
+  // Appends an eval entry through the library: the chain stays intact.
+  void Append(const std::string& fields) {
+    auto ledger = Ledger::Open(dir_.File("l"), LedgerMode::kReadWrite);
+    ASSERT_OK(ledger);
+    ASSERT_OK((*ledger)->Begin());
+    ASSERT_OK((*ledger)->Append("eval", "forger", fields));
+    ASSERT_OK((*ledger)->Commit());
+  }
+
   TempDir dir_;
 };
 
@@ -97,5 +108,38 @@ TEST_F(EntriesTamperTest, FitAppendedWithABadDigestIsAnIntegrityFailureDespiteTh
   EXPECT_EQ(history.exit_code, 3) << history.out << history.err;
 }
 
+
+TEST_F(EntriesTamperTest, EvalAnswersThatDoNotDecodeStopEveryReaderWithExitThree) {
+  RunResult first = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") + " m1");
+  ASSERT_EQ(first.exit_code, 0) << first.err;
+  // An eval entry appended with an intact chain whose answer has a count as text: eval
+  // (repeats, adaptivity), status (queries used) and models (answers per model) all read it;
+  // none may throw or go on.
+  Append(R"({"queries_spent":1,"answers":[{"model":"m1","kind":"frozen","n":"many"}]})");
+  for (const std::string& cmd :
+       {"eval --ledger " + Q("l") + " --key-file " + Q("k") + " m1", "status --ledger " + Q("l"),
+        "models --ledger " + Q("l")}) {
+    RunResult r = RunUnseen(cmd);
+    EXPECT_EQ(r.exit_code, 3) << cmd << "\n" << r.out << r.err;
+    EXPECT_NE(r.err.find("entry 6 (eval)"), std::string::npos) << cmd << "\n" << r.err;
+  }
+}
+
+TEST_F(EntriesTamperTest, ARevealWithoutItsValueCountCannotBeWeighed) {
+  ASSERT_EQ(RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("k") + " m1").exit_code, 0);
+  // The same answer again, as a fresh reveal that forgot how many values it could show:
+  // adaptivity cannot be counted from it, so eval stops rather than guess.
+  nlohmann::json history =
+      nlohmann::json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
+  nlohmann::json body = history.back()["body"];
+  for (const char* key : {"seq", "kind", "time", "actor", "tool", "blobs"}) body.erase(key);
+  body["answers"][0].erase("log_values");
+  Append(body.dump());
+  RunResult r = RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("k") + " m1");
+  EXPECT_EQ(r.exit_code, 3) << r.out << r.err;
+  EXPECT_NE(r.err.find("entry 6 (eval): answer 0 is a reveal without 'log_values'"),
+            std::string::npos)
+      << r.err;
+}
 }  // namespace
 }  // namespace unseen
