@@ -174,9 +174,14 @@ std::function<Result<MatchTables>()> TableLoader(const Ledger& ledger, const Led
 class RowReader {
  public:
   RowReader(const SourceInfo& src, const FilePlan& plan, const CsvFile& csv, RowMatcher* matcher,
-            LoadedData* out)
-      : src_(src), plan_(plan), csv_(csv), matcher_(matcher), out_(out),
-        classes_(ClassLabels(src)), canon_(src.columns.size()) {
+            AdmittedData* out)
+      : src_(src),
+        plan_(plan),
+        csv_(csv),
+        matcher_(matcher),
+        out_(out),
+        classes_(ClassLabels(src)),
+        canon_(src.columns.size()) {
     for (size_t s = 0; s < src.columns.size(); ++s) {
       if (src.columns[s].role != ColumnRole::kFeature) continue;
       feature_cols_.push_back(s);
@@ -244,7 +249,7 @@ class RowReader {
   const FilePlan& plan_;
   const CsvFile& csv_;
   RowMatcher* matcher_;
-  LoadedData* out_;
+  AdmittedData* out_;
   ClassIndexer classes_;
   std::vector<size_t> feature_cols_;
   std::vector<std::string_view> canon_;  // the row in source column order
@@ -275,7 +280,7 @@ std::future<Result<FileDigest>> HashFile(const CsvFile& file, const SealInfo& se
 
 // For the dev file, the seal's own dev row set stands for what matching would have found.
 Result<std::optional<RowSet>> TakeDevRowSet(const Ledger& ledger, const SealInfo& seal,
-                                            const std::string& path, const LoadedData& out,
+                                            const std::string& path, const AdmittedData& out,
                                             bool values_ok, MatchResult* matched) {
   UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger.GetBlob(seal.dev_set));
   UNSEEN_ASSIGN_OR_RETURN(RowSet dev_set, RowSet::Deserialize(dev_bytes));
@@ -316,8 +321,8 @@ std::vector<std::string> ClassLabels(const SourceInfo& source) {
   return labels;
 }
 
-Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const std::string& path,
-                            DataPurpose purpose, DataRefusal* refusal) {
+Result<AdmittedData> AdmitData(const Ledger& ledger, const LedgerState& st, const std::string& path,
+                               DataPurpose purpose, DataRefusal* refusal) {
   if (!st.seal)
     return Status::FailedPrecondition(ledger.path() + ": seal the holdout first (`unseen seal`)");
   const SourceInfo& src = st.source;
@@ -327,7 +332,7 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   UNSEEN_ASSIGN_OR_RETURN(auto csv, CsvFile::Open(path, options));
   UNSEEN_ASSIGN_OR_RETURN(FilePlan plan, PlanFile(*csv, src, purpose));
 
-  LoadedData out;
+  AdmittedData out;
   out.path = path;
   out.labelled = plan.labelled;
   RowMatcher matcher(TableLoader(ledger, st), MatchLayout{src.delimiter, plan.layout.file_of_source},
@@ -367,8 +372,8 @@ Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& st, const s
   return out;
 }
 
-LoadedData SelectRows(const LoadedData& d, const std::vector<size_t>& rows) {
-  LoadedData out;
+AdmittedData SelectRows(const AdmittedData& d, const std::vector<size_t>& rows) {
+  AdmittedData out;
   out.path = d.path;
   out.file_sha256 = d.file_sha256;
   out.labelled = d.labelled;

@@ -22,7 +22,7 @@ enum class DataPurpose {
   kNewRows,  // rows may be new; none may be a holdout row (predict)
 };
 
-struct LoadedData {
+struct AdmittedData {
   std::string path;
   Digest256 file_sha256{};
   Frame features;          // the source's feature columns, typed as registered
@@ -46,16 +46,17 @@ struct DataRefusal {
   std::vector<uint64_t> first_lines;
 };
 
-// Loads and checks `path`. Refused (with *refusal filled in) when rows
+// Admits `path`: reads it and matches every row against the source and the holdout before
+// anything it holds is used. Refused (with *refusal filled in) when rows
 // match the holdout or, for kDevRows, are not development rows;
 // InvalidArgument for malformed CSV or missing columns.
-Result<LoadedData> LoadData(const Ledger& ledger, const LedgerState& state, const std::string& path,
-                            DataPurpose purpose, DataRefusal* refusal);
+Result<AdmittedData> AdmitData(const Ledger& ledger, const LedgerState& state,
+                               const std::string& path, DataPurpose purpose, DataRefusal* refusal);
 
 // The data rows listed in `rows` (ascending indexes into `data`), every
 // per-row field kept in step; rows_read is recomputed from source_rows.
 // REQUIRES: data loaded with kDevRows.
-LoadedData SelectRows(const LoadedData& data, const std::vector<size_t>& rows);
+AdmittedData SelectRows(const AdmittedData& data, const std::vector<size_t>& rows);
 
 // Class labels of a classification source in index order.
 std::vector<std::string> ClassLabels(const SourceInfo& source);

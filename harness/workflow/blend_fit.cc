@@ -90,8 +90,8 @@ std::string RowList(const std::vector<uint32_t>& rows) {
 }
 
 // Each member's score on the rows of `x`, one column per member.
-Result<Eigen::MatrixXd> MemberScores(const Ledger& ledger, const std::vector<Member>& members,
-                                     const Frame& x, LearnTask task, const std::string& where) {
+Result<Eigen::MatrixXd> MemberScores(const std::vector<Member>& members, const Frame& x,
+                                     LearnTask task, const std::string& where) {
   Eigen::MatrixXd scores(static_cast<Eigen::Index>(x.rows()),
                          static_cast<Eigen::Index>(members.size()));
   for (size_t i = 0; i < members.size(); ++i) {
@@ -119,7 +119,7 @@ struct ContributionFolds {
   uint64_t seed = 0;
 };
 
-Result<ContributionFolds> AssignContributionFolds(const PipelineSpec& spec, const LoadedData& d,
+Result<ContributionFolds> AssignContributionFolds(const PipelineSpec& spec, const AdmittedData& d,
                                                   LearnTask task, const std::string& partition) {
   ContributionFolds f;
   f.seed = spec.select ? spec.select->seed : 0;
@@ -241,7 +241,7 @@ Status CheckLineage(FitRun* run, const BlendState& b) {
 
 // The data, matched against the sealed holdout, cut to the partition's rows.
 Status LoadPartitionRows(FitRun* run, const BlendState& b) {
-  UNSEEN_ASSIGN_OR_RETURN(LoadedData all, LoadFitData(run));
+  UNSEEN_ASSIGN_OR_RETURN(AdmittedData all, AdmitFitData(run));
   std::vector<size_t> keep;
   for (size_t i = 0; i < all.source_rows.size(); ++i) {
     if (b.part.rows.Contains(all.source_rows[i])) keep.push_back(i);
@@ -258,10 +258,9 @@ Status LoadPartitionRows(FitRun* run, const BlendState& b) {
 // Every member's score on the partition's rows; each member's contribution
 // by cross-validation inside the partition; the final weights on all of it.
 Status WeighMembers(FitRun* run, BlendState* b) {
-  const LoadedData& d = run->data;
+  const AdmittedData& d = run->data;
   const std::string where = SpecWhere(run->spec.path, b->table.members_at);
-  UNSEEN_ASSIGN_OR_RETURN(b->scores,
-                          MemberScores(*run->ledger, b->members, d.features, b->task, where));
+  UNSEEN_ASSIGN_OR_RETURN(b->scores, MemberScores(b->members, d.features, b->task, where));
   UNSEEN_ASSIGN_OR_RETURN(b->folds, AssignContributionFolds(run->spec, d, b->task, b->part.name));
   UNSEEN_ASSIGN_OR_RETURN(b->contrib, CrossValidateBlend(b->scores, d.target, b->folds.fold,
                                                          b->folds.k, b->folds.validation_only,

@@ -41,7 +41,7 @@ Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
       return Status::InvalidArgument("--attach " + path + ": " + digest.status().message());
     attached.push_back({{"path", path}, {"sha256", ToHex(digest->sha256)}});
     DataRefusal refusal;
-    auto loaded = LoadData(ledger, st, path, DataPurpose::kNewRows, &refusal);
+    auto loaded = AdmitData(ledger, st, path, DataPurpose::kNewRows, &refusal);
     if (!loaded.ok() && loaded.status().IsRefused()) {
       q.taints.push_back("attached file " + path + " holds " +
                          std::to_string(refusal.holdout_rows) + " holdout rows");

@@ -155,7 +155,7 @@ Result<double> TrainingMean(EvalRun* run, const Query& q) {
     const std::string& train = run->req->train_data;
     const std::string path = train.empty() ? st.seal->dev_out_path : train;
     DataRefusal refusal;
-    auto loaded = LoadData(*run->ledger, st, path, DataPurpose::kDevRows, &refusal);
+    auto loaded = AdmitData(*run->ledger, st, path, DataPurpose::kDevRows, &refusal);
     if (!loaded.ok()) {
       return Status::InvalidArgument("--train-data " + path + ": " + loaded.status().message());
     }

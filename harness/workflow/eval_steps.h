@@ -110,7 +110,7 @@ struct EvalRun {
   double log_h = 0;  // ln H of the union bound, this call's queries included
   std::optional<Key> key;
   std::unique_ptr<HoldoutGuard> guard;
-  std::optional<LoadedData> train_rows;  // Thresholdout: loaded on first use
+  std::optional<AdmittedData> train_rows;  // Thresholdout: loaded on first use
   std::vector<EvalAnswerRecord> answers;  // as recorded
   std::vector<BlobRef> blobs;
 };

@@ -43,7 +43,7 @@ Result<std::string> ReadSpecBytes(const std::string& path) {
 
 // Drops the rows of the data that lie in the partition named by
 // --exclude; fills the report's excluded fields.
-Status ExcludePartition(const NamedPartition& p, LoadedData* d, FitReport* report) {
+Status ExcludePartition(const NamedPartition& p, AdmittedData* d, FitReport* report) {
   std::vector<size_t> keep;
   for (size_t i = 0; i < d->source_rows.size(); ++i) {
     if (!p.rows.Contains(d->source_rows[i])) keep.push_back(i);
@@ -98,7 +98,7 @@ Status LoadPipelineData(FitRun* run) {
     if (!p.ok()) return Status::NotFound("--exclude: " + p.status().message());
     run->excluded = std::move(*p);
   }
-  UNSEEN_ASSIGN_OR_RETURN(run->data, LoadFitData(run));
+  UNSEEN_ASSIGN_OR_RETURN(run->data, AdmitFitData(run));
   if (run->excluded) {
     UNSEEN_RETURN_IF_ERROR(ExcludePartition(*run->excluded, &run->data, &run->report));
   }
@@ -166,11 +166,11 @@ Status RefuseFit(FitRun* run, const Status& reason, const json& details) {
   return reason;
 }
 
-Result<LoadedData> LoadFitData(FitRun* run) {
+Result<AdmittedData> AdmitFitData(FitRun* run) {
   const FitRequest& req = *run->req;
   run->data_path = req.data_path.empty() ? run->st.seal->dev_out_path : req.data_path;
   DataRefusal refusal;
-  auto loaded = LoadData(*run->ledger, run->st, run->data_path, DataPurpose::kDevRows, &refusal);
+  auto loaded = AdmitData(*run->ledger, run->st, run->data_path, DataPurpose::kDevRows, &refusal);
   if (loaded.ok() || !loaded.status().IsRefused()) return loaded;
   json details = {{"data", run->data_path},
                   {"holdout_rows", refusal.holdout_rows},

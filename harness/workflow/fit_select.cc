@@ -36,7 +36,7 @@ Eigen::VectorXd Pick(const Eigen::VectorXd& y, const std::vector<size_t>& rows) 
 // [select] asks for one, else k folds, stratified by class for classification.
 Status AssignSelectionFolds(FitRun* run) {
   const PipelineSpec& spec = run->spec;
-  const LoadedData& d = run->data;
+  const AdmittedData& d = run->data;
   FitReport& report = run->report;
   std::vector<int> labels;
   if (run->task == LearnTask::kClassification) {
@@ -110,7 +110,7 @@ json ScoresJson(const FitReport& r) {
 
 }  // namespace
 
-Result<double> ScoreOnFold(const Candidate& c, const LoadedData& d, const std::vector<int>& fold,
+Result<double> ScoreOnFold(const Candidate& c, const AdmittedData& d, const std::vector<int>& fold,
                            int f, Metric metric, LearnTask task, int classes) {
   std::vector<size_t> train = RowsWhere(fold, f, false), test = RowsWhere(fold, f, true);
   UNSEEN_ASSIGN_OR_RETURN(FittedPipeline p, FitPipeline(c, d.features.Select(train),
@@ -119,7 +119,7 @@ Result<double> ScoreOnFold(const Candidate& c, const LoadedData& d, const std::v
   return Score(metric, Pick(d.target, test), pred, classes);
 }
 
-std::vector<RowSet> FoldRowSets(const LoadedData& d, const std::vector<int>& fold, int k) {
+std::vector<RowSet> FoldRowSets(const AdmittedData& d, const std::vector<int>& fold, int k) {
   std::vector<std::vector<uint32_t>> rows(static_cast<size_t>(k));
   for (size_t i = 0; i < fold.size(); ++i)
     rows[static_cast<size_t>(fold[i])].push_back(d.source_rows[i]);

@@ -34,7 +34,7 @@ struct FitRun {
   LedgerState st;
   PipelineSpec spec;
   std::string data_path;  // the file the rows were read from
-  LoadedData data;        // the rows fitted on
+  AdmittedData data;      // the rows fitted on
   FitReport report;
 
   // Pipeline specs only (fit.cc, fit_select.cc).
@@ -65,7 +65,7 @@ Result<std::unique_ptr<FitRun>> OpenFit(const FitRequest& request);
 // development rows and sets run->data_path to the file read. When the data
 // is refused (holdout rows, rows that are not dev rows) it rolls the ledger
 // back, appends a `refusal` entry and returns the refusal.
-Result<LoadedData> LoadFitData(FitRun* run);
+Result<AdmittedData> AdmitFitData(FitRun* run);
 
 // Rolls the ledger back and records `reason` as a `refusal` entry of the fit
 // command with `details` (a JSON object); returns `reason` (or the error
@@ -93,12 +93,12 @@ Status RecordFit(FitRun* run, const FitBody& fit, const std::vector<BlobRef>& bl
 // Fits `candidate` (every transform, then the learner) on the rows of `data` with fold[i] != f
 // only, and scores it on the rows with fold[i] == f: no statistic of the scored rows reaches
 // the fit.
-Result<double> ScoreOnFold(const Candidate& candidate, const LoadedData& data,
+Result<double> ScoreOnFold(const Candidate& candidate, const AdmittedData& data,
                            const std::vector<int>& fold, int f, Metric metric, LearnTask task,
                            int classes);
 
 // The source rows of each fold's validation part (fold[i] == f), as row sets.
-std::vector<RowSet> FoldRowSets(const LoadedData& data, const std::vector<int>& fold, int k);
+std::vector<RowSet> FoldRowSets(const AdmittedData& data, const std::vector<int>& fold, int k);
 
 // Expands the grid and, when there is more than one candidate or a [select]
 // table, assigns folds (or a validation split) and scores every candidate

@@ -19,7 +19,7 @@ namespace {
 
 // Writes predictions as CSV to a staged file, closed and hashed; it moves
 // into place only after the command's transaction has committed.
-Result<std::unique_ptr<StagedFile>> WritePredictions(const std::string& path, const LoadedData& d,
+Result<std::unique_ptr<StagedFile>> WritePredictions(const std::string& path, const AdmittedData& d,
                                                      const Predictions& p, const json& model,
                                                      Digest256* sha256) {
   std::vector<std::string> classes =
@@ -57,7 +57,7 @@ Result<PredictReport> PredictWithModel(const PredictRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(LoadedModel model, LoadModel(*ledger, req.model));
   const ModelSummary& summary = model.summary;
   DataRefusal refusal;
-  auto loaded = LoadData(*ledger, st, req.data_path, DataPurpose::kNewRows, &refusal);
+  auto loaded = AdmitData(*ledger, st, req.data_path, DataPurpose::kNewRows, &refusal);
   if (!loaded.ok()) {
     if (!loaded.status().IsRefused()) return loaded.status();
     ledger->Rollback();

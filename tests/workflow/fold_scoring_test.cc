@@ -24,9 +24,9 @@ kind = "linear"
 // Rows 0-99 are fold 0 and rows 100-199 fold 1. On fold 1 the target is feature a; on fold 0 it
 // is ten times feature b. Over all rows b correlates far better with the target, so a feature
 // choice that saw fold 0 keeps b; one made on fold 1 alone keeps a.
-LoadedData TwoRegimes(std::vector<int>* fold) {
+AdmittedData TwoRegimes(std::vector<int>* fold) {
   Random random(11);
-  LoadedData d;
+  AdmittedData d;
   d.features.columns = {FrameColumn{"a", true, {}, {}}, FrameColumn{"b", true, {}, {}}};
   std::vector<double> y;
   for (int i = 0; i < 200; ++i) {
@@ -50,7 +50,7 @@ std::vector<size_t> Rows(size_t from, size_t to) {
 
 TEST(FoldScoringTest, TransformsInsideAFoldNeverSeeTheScoredRows) {
   std::vector<int> fold;
-  const LoadedData d = TwoRegimes(&fold);
+  const AdmittedData d = TwoRegimes(&fold);
   Result<PipelineSpec> spec = ParseSpecText(kSpec, "spec.toml");
   ASSERT_OK(spec.status());
   const Candidate c = ExpandGrid(*spec)[0];
