@@ -48,7 +48,7 @@ Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger) {
   return out;
 }
 
-Result<LoadedModel> LoadModel(const Ledger& ledger, const std::string& name) {
+Result<StoredModel> FindModel(const Ledger& ledger, const std::string& name) {
   UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListModels(ledger));
   std::string known;
   for (ModelSummary& m : models) {
@@ -56,16 +56,28 @@ Result<LoadedModel> LoadModel(const Ledger& ledger, const std::string& name) {
       known += (known.empty() ? "" : ", ") + m.name;
       continue;
     }
-    LoadedModel out;
+    StoredModel out;
     out.summary = std::move(m);
     UNSEEN_ASSIGN_OR_RETURN(out.json, ModelJson(ledger, out.summary.digest));
-    auto members = [&ledger](const Digest256& digest) { return ModelJson(ledger, digest); };
-    UNSEEN_ASSIGN_OR_RETURN(FrozenModel frozen, FrozenModel::FromJson(out.json, members));
-    out.model = std::make_shared<FrozenModel>(std::move(frozen));
     return out;
   }
   return Status::NotFound("--model: no frozen model named '" + name +
                           "' (models: " + (known.empty() ? std::string("none yet") : known) + ")");
+}
+
+Result<std::shared_ptr<FrozenModel>> BuildModel(const Ledger& ledger, const json& model) {
+  auto members = [&ledger](const Digest256& digest) { return ModelJson(ledger, digest); };
+  UNSEEN_ASSIGN_OR_RETURN(FrozenModel frozen, FrozenModel::FromJson(model, members));
+  return std::make_shared<FrozenModel>(std::move(frozen));
+}
+
+Result<LoadedModel> LoadModel(const Ledger& ledger, const std::string& name) {
+  UNSEEN_ASSIGN_OR_RETURN(StoredModel stored, FindModel(ledger, name));
+  LoadedModel out;
+  UNSEEN_ASSIGN_OR_RETURN(out.model, BuildModel(ledger, stored.json));
+  out.summary = std::move(stored.summary);
+  out.json = std::move(stored.json);
+  return out;
 }
 
 }  // namespace unseen

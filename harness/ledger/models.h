@@ -1,7 +1,8 @@
 // Frozen models as the ledger holds them: listed from the `fit` entries (and
 // the holdout answers given for them), and loaded by name, ready to apply.
-// LoadModel is the one way code above the ledger gets a frozen model: eval,
-// predict, blends and `models --show` all use it. Thread-compatible.
+// FindModel and BuildModel (LoadModel is both) are the one way code above the
+// ledger gets a frozen model: eval, predict, blends and `models --show` all
+// use them. Thread-compatible.
 #ifndef UNSEEN_HARNESS_LEDGER_MODELS_H_
 #define UNSEEN_HARNESS_LEDGER_MODELS_H_
 
@@ -37,6 +38,12 @@ struct ModelSummary {
 // the entry for a malformed fit or eval body.
 Result<std::vector<ModelSummary>> ListModels(const Ledger& ledger);
 
+// A frozen model as stored: its summary and its JSON, not yet built.
+struct StoredModel {
+  ModelSummary summary;
+  nlohmann::json json;  // the model blob, checked against its digest
+};
+
 // A frozen model, loaded whole.
 struct LoadedModel {
   ModelSummary summary;
@@ -44,9 +51,19 @@ struct LoadedModel {
   std::shared_ptr<FrozenModel> model;  // ready to apply; a blend's members read from the ledger
 };
 
-// The frozen model named `name`. NotFound ("--model: no frozen model named
-// ...", listing the known models) if there is none; Corruption if its blob
-// or a blend member's is missing or malformed.
+// The frozen model named `name`, as stored. NotFound ("--model: no frozen
+// model named ...", listing the known models) if there is none; NotFound or
+// Corruption if its blob is missing or not a JSON object.
+Result<StoredModel> FindModel(const Ledger& ledger, const std::string& name);
+
+// A stored model made ready to apply: a blend's members are read from the
+// ledger by the digests it recorded, recursively. Corruption or
+// InvalidArgument (as FrozenModel::FromJson) if it or a member is malformed,
+// NotFound if a member's blob is missing.
+Result<std::shared_ptr<FrozenModel>> BuildModel(const Ledger& ledger, const nlohmann::json& model);
+
+// FindModel, then BuildModel: the model whole. Commands that must check
+// something between the two (lineage, the data brought in) call them in turn.
 Result<LoadedModel> LoadModel(const Ledger& ledger, const std::string& name);
 
 }  // namespace unseen

@@ -21,7 +21,7 @@ constexpr int kDefaultFolds = 5;
 constexpr size_t kShownRows = 5;
 constexpr int kMaxLineageDepth = 16;
 
-using Member = LoadedModel;
+using Member = StoredModel;  // built only once the lineage guard has passed (MemberScores)
 
 // The loss the contributions are measured in: [select] metric, else mse
 // for regression and brier for classification.
@@ -44,7 +44,7 @@ Result<std::vector<Member>> LoadMembers(const Ledger& ledger, const PipelineSpec
                                         const BlendSpec& b) {
   std::vector<Member> out;
   for (const std::string& name : b.members) {
-    Result<LoadedModel> model = LoadModel(ledger, name);
+    Result<StoredModel> model = FindModel(ledger, name);
     if (!model.ok()) {
       std::string msg = model.status().message();
       if (msg.rfind("--model: ", 0) == 0) msg = msg.substr(9);
@@ -90,13 +90,15 @@ std::string RowList(const std::vector<uint32_t>& rows) {
 }
 
 // Each member's score on the rows of `x`, one column per member.
-Result<Eigen::MatrixXd> MemberScores(const std::vector<Member>& members, const Frame& x,
-                                     LearnTask task, const std::string& where) {
+Result<Eigen::MatrixXd> MemberScores(const Ledger& ledger, const std::vector<Member>& members,
+                                     const Frame& x, LearnTask task, const std::string& where) {
   Eigen::MatrixXd scores(static_cast<Eigen::Index>(x.rows()),
                          static_cast<Eigen::Index>(members.size()));
   for (size_t i = 0; i < members.size(); ++i) {
     const ModelSummary& s = members[i].summary;
-    const FrozenModel& member = *members[i].model;
+    UNSEEN_ASSIGN_OR_RETURN(std::shared_ptr<FrozenModel> built,
+                            BuildModel(ledger, members[i].json));
+    const FrozenModel& member = *built;
     if (member.task() != task) {
       return Status::InvalidArgument(where + "blend: member '" + s.name +
                                      "' was fitted for another task");
@@ -260,7 +262,8 @@ Status LoadPartitionRows(FitRun* run, const BlendState& b) {
 Status WeighMembers(FitRun* run, BlendState* b) {
   const AdmittedData& d = run->data;
   const std::string where = SpecWhere(run->spec.path, b->table.members_at);
-  UNSEEN_ASSIGN_OR_RETURN(b->scores, MemberScores(b->members, d.features, b->task, where));
+  UNSEEN_ASSIGN_OR_RETURN(b->scores,
+                          MemberScores(*run->ledger, b->members, d.features, b->task, where));
   UNSEEN_ASSIGN_OR_RETURN(b->folds, AssignContributionFolds(run->spec, d, b->task, b->part.name));
   UNSEEN_ASSIGN_OR_RETURN(b->contrib, CrossValidateBlend(b->scores, d.target, b->folds.fold,
                                                          b->folds.k, b->folds.validation_only,

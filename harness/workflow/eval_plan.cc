@@ -56,23 +56,20 @@ Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
 // A frozen model by name, loaded with its members: the guard must not read
 // the ledger while it holds rows.
 Result<Query> FrozenQuery(const Ledger& ledger, const LedgerState& st, const std::string& name) {
-  Result<LoadedModel> loaded = LoadModel(ledger, name);
-  if (!loaded.ok()) {
-    const std::string& why = loaded.status().message();
-    if (loaded.status().IsNotFound()) return Status::InvalidArgument(why);
-    // A damaged model blob is the ledger's fault (exit 3), anything else the model's.
-    if (loaded.status().IsCorruption()) return Status::Corruption("model '" + name + "': " + why);
-    return Status::InvalidArgument("model '" + name + "': " + why);
-  }
+  Result<StoredModel> stored = FindModel(ledger, name);
+  if (!stored.ok()) return Status::InvalidArgument(stored.status().message());
   Query q;
   q.name = name;
   q.kind = "frozen";
-  q.model = std::move(loaded->json);
-  q.digest = loaded->summary.digest;
-  q.frozen_at = loaded->summary.fit_entry;
-  q.frozen = std::move(loaded->model);
+  q.model = std::move(stored->json);
+  q.digest = stored->summary.digest;
+  q.frozen_at = stored->summary.fit_entry;
   UNSEEN_ASSIGN_OR_RETURN(Lineage lineage, TraceLineage(ledger, st, q.frozen_at, q.model));
   q.taints = lineage.taints;
+  auto frozen = BuildModel(ledger, q.model);
+  if (!frozen.ok())
+    return Status::InvalidArgument("model '" + name + "': " + frozen.status().message());
+  q.frozen = std::move(*frozen);
   return q;
 }
 

@@ -11,7 +11,7 @@ Result<std::vector<ModelSummary>> ListFrozenModels(const std::string& ledger_pat
 
 Result<nlohmann::json> ShowModel(const std::string& ledger_path, const std::string& name) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(ledger_path, LedgerMode::kReadOnly));
-  UNSEEN_ASSIGN_OR_RETURN(LoadedModel model, LoadModel(*ledger, name));
+  UNSEEN_ASSIGN_OR_RETURN(StoredModel model, FindModel(*ledger, name));
   return std::move(model.json);
 }
 

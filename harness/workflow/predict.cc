@@ -22,8 +22,17 @@ namespace {
 Result<std::unique_ptr<StagedFile>> WritePredictions(const std::string& path, const AdmittedData& d,
                                                      const Predictions& p, const json& model,
                                                      Digest256* sha256) {
-  std::vector<std::string> classes =
-      model.at("target").at("classes").get<std::vector<std::string>>();
+  // Built from this JSON already, so these keys exist; checked anyway, as the blob is the ledger's.
+  const auto target = model.find("target");
+  if (target == model.end() || !target->is_object() || !target->contains("classes") ||
+      !(*target)["classes"].is_array()) {
+    return Status::Corruption("model blob: no target classes");
+  }
+  std::vector<std::string> classes;
+  for (const json& c : (*target)["classes"]) {
+    if (!c.is_string()) return Status::Corruption("model blob: a target class is not text");
+    classes.push_back(c.get<std::string>());
+  }
   UNSEEN_ASSIGN_OR_RETURN(LearnTask task, FrozenModel::TaskOf(model));
   bool classification = task == LearnTask::kClassification;
   std::string text = "id,prediction";
@@ -54,7 +63,7 @@ Result<PredictReport> PredictWithModel(const PredictRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
   UNSEEN_RETURN_IF_ERROR(ledger->Begin());
   UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
-  UNSEEN_ASSIGN_OR_RETURN(LoadedModel model, LoadModel(*ledger, req.model));
+  UNSEEN_ASSIGN_OR_RETURN(StoredModel model, FindModel(*ledger, req.model));
   const ModelSummary& summary = model.summary;
   DataRefusal refusal;
   auto loaded = AdmitData(*ledger, st, req.data_path, DataPurpose::kNewRows, &refusal);
@@ -69,7 +78,8 @@ Result<PredictReport> PredictWithModel(const PredictRequest& req) {
         RecordRefusal(req.ledger_path, req.actor, "predict", loaded.status(), details.dump()));
     return loaded.status();
   }
-  UNSEEN_ASSIGN_OR_RETURN(Predictions p, model.model->Predict(loaded->features));
+  UNSEEN_ASSIGN_OR_RETURN(std::shared_ptr<FrozenModel> frozen, BuildModel(*ledger, model.json));
+  UNSEEN_ASSIGN_OR_RETURN(Predictions p, frozen->Predict(loaded->features));
   PredictReport report;
   report.rows = loaded->rows();
   UNSEEN_ASSIGN_OR_RETURN(
