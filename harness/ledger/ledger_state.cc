@@ -74,4 +74,15 @@ Result<LedgerState> ReadLedgerState(const Ledger& ledger) {
   return st;
 }
 
+Result<SealedLedger> OpenSealedLedger(const std::string& path) {
+  SealedLedger out;
+  UNSEEN_ASSIGN_OR_RETURN(out.ledger, Ledger::Open(path, LedgerMode::kReadWrite));
+  UNSEEN_RETURN_IF_ERROR(out.ledger->Begin());
+  UNSEEN_ASSIGN_OR_RETURN(out.state, ReadLedgerState(*out.ledger));
+  if (!out.state.seal) {
+    return Status::FailedPrecondition(path + ": seal the holdout first (`unseen seal`)");
+  }
+  return out;
+}
+
 }  // namespace unseen

@@ -4,6 +4,7 @@
 #ifndef UNSEEN_HARNESS_LEDGER_LEDGER_STATE_H_
 #define UNSEEN_HARNESS_LEDGER_LEDGER_STATE_H_
 
+#include <memory>
 #include <optional>
 #include <string>
 
@@ -52,6 +53,18 @@ struct LedgerState {
 // a genesis, source, seal, budget or eval entry is malformed (run `unseen
 // verify` for the full check).
 Result<LedgerState> ReadLedgerState(const Ledger& ledger);
+
+// A ledger opened for a command that works on a sealed holdout: read-write,
+// inside the command's one transaction (Begin() called), with its state read.
+struct SealedLedger {
+  std::unique_ptr<Ledger> ledger;
+  LedgerState state;
+};
+
+// NotFound or Corruption as Ledger::Open and ReadLedgerState;
+// FailedPrecondition "PATH: seal the holdout first (`unseen seal`)" before
+// the seal.
+Result<SealedLedger> OpenSealedLedger(const std::string& path);
 
 // The AAD that binds a sealed blob to its ledger and holdout.
 std::string SealedAad(const std::string& ledger_id, const Digest256& holdout_set);

@@ -12,11 +12,9 @@ Result<BudgetReport> RaiseBudget(const BudgetRequest& req) {
     return Status::InvalidArgument(
         "--reason: expected a reason for raising the budget (it is shown in every report)");
   }
-  UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
-  UNSEEN_RETURN_IF_ERROR(ledger->Begin());
-  UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
-  if (!st.seal)
-    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
+  UNSEEN_ASSIGN_OR_RETURN(SealedLedger opened, OpenSealedLedger(req.ledger_path));
+  std::unique_ptr<Ledger> ledger = std::move(opened.ledger);
+  LedgerState st = std::move(opened.state);
   const uint64_t before = st.seal->budget_queries;
   if (req.add_queries > (uint64_t{1} << 53) - before) {
     return Status::InvalidArgument("--raise: the budget would pass 2^53 queries");

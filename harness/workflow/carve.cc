@@ -142,12 +142,9 @@ Result<CarveReport> CarvePartition(const CarveRequest& req) {
                                    " is not a share of the dev rows; expected a number strictly "
                                    "between 0 and 1");
   }
-  UNSEEN_ASSIGN_OR_RETURN(auto ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
-  UNSEEN_RETURN_IF_ERROR(ledger->Begin());
-  UNSEEN_ASSIGN_OR_RETURN(LedgerState st, ReadLedgerState(*ledger));
-  if (!st.seal) {
-    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
-  }
+  UNSEEN_ASSIGN_OR_RETURN(SealedLedger opened, OpenSealedLedger(req.ledger_path));
+  std::unique_ptr<Ledger> ledger = std::move(opened.ledger);
+  LedgerState st = std::move(opened.state);
   if (req.stratified && st.source.task != TaskKind::kClassification) {
     return Status::InvalidArgument(
         "--stratified: the source's task is regression; stratifying "

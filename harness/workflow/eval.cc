@@ -33,11 +33,9 @@ Result<std::unique_ptr<EvalRun>> OpenRun(const EvalRequest& req) {
   }
   auto run = std::make_unique<EvalRun>();
   run->req = &req;
-  UNSEEN_ASSIGN_OR_RETURN(run->ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
-  UNSEEN_RETURN_IF_ERROR(run->ledger->Begin());
-  UNSEEN_ASSIGN_OR_RETURN(run->st, ReadLedgerState(*run->ledger));
-  if (!run->st.seal)
-    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
+  UNSEEN_ASSIGN_OR_RETURN(SealedLedger opened, OpenSealedLedger(req.ledger_path));
+  run->ledger = std::move(opened.ledger);
+  run->st = std::move(opened.state);
   UNSEEN_ASSIGN_OR_RETURN(run->setup, SetUpMetric(req, run->st));
   run->metric_name = MetricName(run->setup.metric);
   run->method_name = req.ladder         ? "ladder"

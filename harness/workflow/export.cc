@@ -49,11 +49,9 @@ Result<std::unique_ptr<ExportRun>> OpenExport(const ExportRequest& req) {
     return Status::InvalidArgument("--out-dir: required with --folds");
   auto run = std::make_unique<ExportRun>();
   run->req = &req;
-  UNSEEN_ASSIGN_OR_RETURN(run->ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
-  UNSEEN_RETURN_IF_ERROR(run->ledger->Begin());
-  UNSEEN_ASSIGN_OR_RETURN(run->st, ReadLedgerState(*run->ledger));
-  if (!run->st.seal)
-    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
+  UNSEEN_ASSIGN_OR_RETURN(SealedLedger opened, OpenSealedLedger(req.ledger_path));
+  run->ledger = std::move(opened.ledger);
+  run->st = std::move(opened.state);
   const SourceInfo& src = run->st.source;
   std::string data = req.data_path.empty() ? run->st.source_abs_path : req.data_path;
   UNSEEN_ASSIGN_OR_RETURN(FileDigest fd, Sha256File(data));

@@ -149,11 +149,9 @@ Result<std::unique_ptr<FitRun>> OpenFit(const FitRequest& req) {
   UNSEEN_RETURN_IF_ERROR(CheckModelName(req.name));
   auto run = std::make_unique<FitRun>();
   run->req = &req;
-  UNSEEN_ASSIGN_OR_RETURN(run->ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
-  UNSEEN_RETURN_IF_ERROR(run->ledger->Begin());
-  UNSEEN_ASSIGN_OR_RETURN(run->st, ReadLedgerState(*run->ledger));
-  if (!run->st.seal)
-    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
+  UNSEEN_ASSIGN_OR_RETURN(SealedLedger opened, OpenSealedLedger(req.ledger_path));
+  run->ledger = std::move(opened.ledger);
+  run->st = std::move(opened.state);
   UNSEEN_RETURN_IF_ERROR(NameIsFree(*run->ledger, req.name));
   UNSEEN_ASSIGN_OR_RETURN(run->spec, ParseSpecFile(req.spec_path));
   return run;

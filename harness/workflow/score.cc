@@ -55,11 +55,9 @@ struct ScoreRun {
 Result<std::unique_ptr<ScoreRun>> OpenScore(const ScoreRequest& req) {
   auto run = std::make_unique<ScoreRun>();
   run->req = &req;
-  UNSEEN_ASSIGN_OR_RETURN(run->ledger, Ledger::Open(req.ledger_path, LedgerMode::kReadWrite));
-  UNSEEN_RETURN_IF_ERROR(run->ledger->Begin());
-  UNSEEN_ASSIGN_OR_RETURN(run->st, ReadLedgerState(*run->ledger));
-  if (!run->st.seal)
-    return Status::FailedPrecondition(req.ledger_path + ": seal the holdout first (`unseen seal`)");
+  UNSEEN_ASSIGN_OR_RETURN(SealedLedger opened, OpenSealedLedger(req.ledger_path));
+  run->ledger = std::move(opened.ledger);
+  run->st = std::move(opened.state);
   const SourceInfo& src = run->st.source;
   run->classification = src.task == TaskKind::kClassification;
   run->classes = run->classification ? static_cast<int>(src.target.classes.size()) : 0;
