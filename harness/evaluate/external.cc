@@ -14,6 +14,7 @@
 #include <cmath>
 #include <cstring>
 #include <unordered_map>
+#include <vector>
 
 #include "harness/data/csv.h"
 #include "harness/data/source_scan.h"
@@ -53,6 +54,13 @@ Result<ChildResult> RunChild(const std::string& command, const std::string& inpu
   if (pipe(in) != 0 || pipe(out) != 0 || pipe(err) != 0) {
     return Status::IOError(std::string("cannot create pipes: ") + std::strerror(errno));
   }
+  // The predictor inherits none of our UNSEEN_* variables: a passphrase may be among them.
+  // Built before fork(), so that the child only calls async-signal-safe functions.
+  std::vector<char*> env;
+  for (char** e = environ; *e != nullptr; ++e) {
+    if (std::strncmp(*e, "UNSEEN_", 7) != 0) env.push_back(*e);
+  }
+  env.push_back(nullptr);
   pid_t pid = fork();
   if (pid < 0)
     return Status::IOError(std::string("cannot start the predictor: ") + std::strerror(errno));
@@ -61,8 +69,9 @@ Result<ChildResult> RunChild(const std::string& command, const std::string& inpu
     dup2(in[0], 0);
     dup2(out[1], 1);
     dup2(err[1], 2);
-    for (int fd : {in[0], in[1], out[0], out[1], err[0], err[1]}) close(fd);
-    execl("/bin/sh", "sh", "-c", command.c_str(), static_cast<char*>(nullptr));
+    // Nor any other open file: the ledger's database among them.
+    close_range(3, ~0U, 0);
+    execle("/bin/sh", "sh", "-c", command.c_str(), static_cast<char*>(nullptr), env.data());
     _exit(127);
   }
   setpgid(pid, pid);

@@ -544,6 +544,22 @@ TEST_F(ExternalEvalTest, PredictorSeesTokensAndFeaturesOnlyAndIsScored) {
   EXPECT_EQ(Status()["holdout_queries"], 1);
 }
 
+TEST_F(ExternalEvalTest, PredictorGetsNoUnseenVariableAndNoOpenFileOfOurs) {
+  // A passphrase in the environment, and the ledger open in this process: the predictor
+  // records what it can see, then answers.
+  setenv("UNSEEN_PASSPHRASE", "never-shown-to-predictors", 1);
+  RunResult r = External("env > " + ShellQuote(dir_.File("env.txt")) + "; ls -l /proc/$$/fd/ > " +
+                         ShellQuote(dir_.File("fds.txt")) +
+                         "; awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
+  unsetenv("UNSEEN_PASSPHRASE");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const std::string env = ReadFile(dir_.File("env.txt"));
+  EXPECT_EQ(env.find("UNSEEN_"), std::string::npos) << env;
+  EXPECT_EQ(env.find("never-shown-to-predictors"), std::string::npos);
+  const std::string fds = ReadFile(dir_.File("fds.txt"));
+  EXPECT_EQ(fds.find(dir_.File("l")), std::string::npos) << fds;
+}
+
 TEST_F(ExternalEvalTest, FailedPredictorsRevealNothingAndSpendNothing) {
   const std::string before = ReadFile(dir_.File("l"));
   struct Case {
