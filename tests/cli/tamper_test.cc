@@ -10,6 +10,7 @@
 
 #include "storage/digest.h"
 #include "tests/testing/sample_data.h"
+#include "tests/testing/tamper.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {
@@ -40,15 +41,7 @@ class TamperTest : public ::testing::Test {
 
   // Runs SQL on the ledger with the append-only triggers lifted, then puts
   // the triggers back exactly as they were.
-  void Tamper(const std::string& sql) {
-    SQLite::Database db(dir_.File("l"), SQLite::OPEN_READWRITE);
-    std::vector<std::pair<std::string, std::string>> triggers;
-    SQLite::Statement q(db, "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'");
-    while (q.executeStep()) triggers.emplace_back(q.getColumn(0).getString(), q.getColumn(1).getString());
-    for (const auto& [name, _] : triggers) db.exec("DROP TRIGGER " + name);
-    db.exec(sql);
-    for (const auto& [_, text] : triggers) db.exec(text);
-  }
+  void Tamper(const std::string& sql) { testing::TamperLedger(dir_.File("l"), sql); }
 
   testing::RunResult Verify(const std::string& extra = "") {
     return RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k") + extra);

@@ -11,6 +11,7 @@
 
 #include "storage/ledger.h"
 #include "tests/testing/sample_data.h"
+#include "tests/testing/tamper.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {
@@ -53,17 +54,7 @@ class EntriesTamperTest : public ::testing::Test {
 
   // Runs SQL on the ledger with the append-only triggers lifted, then puts
   // them back (as tests/cli/tamper_test.cc does).
-  void Tamper(const std::string& sql) {
-    SQLite::Database db(dir_.File("l"), SQLite::OPEN_READWRITE);
-    std::vector<std::pair<std::string, std::string>> triggers;
-    SQLite::Statement q(db, "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'");
-    while (q.executeStep()) {
-      triggers.emplace_back(q.getColumn(0).getString(), q.getColumn(1).getString());
-    }
-    for (const auto& [name, _] : triggers) db.exec("DROP TRIGGER " + name);
-    db.exec(sql);
-    for (const auto& [_, text] : triggers) db.exec(text);
-  }
+  void Tamper(const std::string& sql) { testing::TamperLedger(dir_.File("l"), sql); }
 
   // Appends an eval entry through the library: the chain stays intact.
   void Append(const std::string& fields) {

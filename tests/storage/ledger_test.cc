@@ -15,6 +15,7 @@
 
 #include "storage/digest.h"
 #include "storage/version.h"
+#include "tests/testing/tamper.h"
 #include "tests/testing/testing.h"
 
 namespace unseen {
@@ -56,17 +57,7 @@ class LedgerTest : public ::testing::Test {
 
   // Runs SQL on the ledger file directly, with the append-only triggers lifted, then puts the
   // triggers back exactly as they were (as tests/cli/tamper_test.cc does).
-  void Tamper(const std::string& sql) {
-    SQLite::Database db(Path(), SQLite::OPEN_READWRITE);
-    std::vector<std::pair<std::string, std::string>> triggers;
-    SQLite::Statement q(db, "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'");
-    while (q.executeStep()) {
-      triggers.emplace_back(q.getColumn(0).getString(), q.getColumn(1).getString());
-    }
-    for (const auto& [name, _] : triggers) db.exec("DROP TRIGGER " + name);
-    db.exec(sql);
-    for (const auto& [_, text] : triggers) db.exec(text);
-  }
+  void Tamper(const std::string& sql) { testing::TamperLedger(Path(), sql); }
 
   // Verify() on the file as it is now; expects Corruption whose message contains `message`.
   void ExpectCorruption(const std::string& message) {
