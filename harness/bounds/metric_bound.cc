@@ -218,9 +218,7 @@ Result<Bound> MetricBound(const MetricSample& s, BoundMethod method, double delt
     b.method = BoundMethodName(method);
     b.assumptions =
         "The holdout rows of each class are independent draws from that class's population "
-        "(the bound is conditional on the " +
-        std::to_string(s.positives) + " positive and " + std::to_string(s.negatives) +
-        " negative rows), and every hypothesis that could have been reported is among the H "
+        "(the bound is conditional on the numbers of positive and negative rows), and every hypothesis that could have been reported is among the H "
         "counted (ln H = " +
         std::to_string(log_hypotheses) + "); no bound corrects a sampling bias.";
     return b;
@@ -273,13 +271,74 @@ Result<Bound> MetricBound(const MetricSample& s, BoundMethod method, double delt
   return b;
 }
 
-RevealedAnswer RevealAnswer(const MetricSample& s, const Bound& b, BoundMethod method) {
+namespace {
+
+// The 0/1 counts k' in 0..n whose rate k'/n rounds to the same grid point
+// as `shown` (on [0, 1] with `step`): the counts the answer cannot tell apart.
+std::pair<uint64_t, uint64_t> SameCell(double shown, uint64_t n, double step) {
+  const double nn = static_cast<double>(n);
+  auto cell = [&](uint64_t k) {
+    return RoundToResolution(static_cast<double>(k) / nn, step, 0, 1);
+  };
+  // A start near the edges, then walk: the cell holds at most n/1000 + 2 counts.
+  uint64_t lo = static_cast<uint64_t>(std::clamp(std::floor((shown - step) * nn), 0.0, nn));
+  while (lo <= n && cell(lo) < shown) ++lo;
+  while (lo > 0 && cell(lo - 1) >= shown) --lo;
+  uint64_t hi = lo;
+  while (hi < n && cell(hi + 1) <= shown) ++hi;
+  return {lo, hi};
+}
+
+// The interval of a 0/1 sample whose count were k instead.
+Result<Bound> BoundAtCount(MetricSample s, uint64_t k, BoundMethod method, double delta,
+                           double log_hypotheses) {
+  const double nn = static_cast<double>(s.n);
+  s.successes = k;
+  s.mean = s.estimate = static_cast<double>(k) / nn;
+  s.variance = s.n > 1 ? static_cast<double>(k) * (nn - static_cast<double>(k)) / (nn * (nn - 1))
+                       : 0.0;
+  return MetricBound(s, method, delta, log_hypotheses);
+}
+
+bool IsRowMean(Metric m) { return m != Metric::kBalancedAccuracy && m != Metric::kAuc; }
+
+}  // namespace
+
+Result<RevealedAnswer> RevealAnswer(const MetricSample& s, BoundMethod method, double delta,
+                                    double log_hypotheses) {
+  UNSEEN_ASSIGN_OR_RETURN(Bound b, MetricBound(s, method, delta, log_hypotheses));
   RevealedAnswer a;
   const double lo = s.range_lo, hi = s.range_hi;
   a.step = (hi - lo) / static_cast<double>(kRevealGridPoints - 1);
   const double log_grid = std::log(static_cast<double>(kRevealGridPoints));
-  a.estimate = RoundToResolution(std::clamp(s.estimate, lo, hi), a.step, lo, hi);
-  if (method == BoundMethod::kHoeffding && s.metric != Metric::kBalancedAccuracy) {
+  // Row means show the mean of the clipped values, which is what the bound is about.
+  const double center = IsRowMean(s.metric) ? s.mean : s.estimate;
+  a.estimate = RoundToResolution(std::clamp(center, lo, hi), a.step, lo, hi);
+  if (s.successes && s.n > 0) {
+    // A 0/1 metric: the interval is the hull of the intervals of every count
+    // that rounds to the shown rate, so the answer is a function of the shown
+    // estimate alone and takes at most min(n + 1, 1001) values.
+    const auto [k_lo, k_hi] = SameCell(a.estimate, s.n, a.step);
+    double lower = b.lower, upper = b.upper;
+    const bool monotone = method != BoundMethod::kBernstein;
+    for (uint64_t k = k_lo; k <= k_hi; ++k) {
+      if (monotone && k != k_lo && k != k_hi) continue;
+      UNSEEN_ASSIGN_OR_RETURN(Bound at, BoundAtCount(s, k, method, delta, log_hypotheses));
+      lower = std::fmin(lower, at.lower);
+      upper = std::fmax(upper, at.upper);
+    }
+    if (method == BoundMethod::kHoeffding) {
+      const double eps = b.half_width_raw + a.step / 2;
+      lower = std::fmin(lower, a.estimate - eps);
+      upper = std::fmax(upper, a.estimate + eps);
+    }
+    a.lower = GridDown(lower, lo, hi, a.step);
+    a.upper = GridUp(upper, lo, hi, a.step);
+    a.log_values = std::log(std::fmin(static_cast<double>(s.n) + 1,
+                                      static_cast<double>(kRevealGridPoints)));
+    return a;
+  }
+  if (method == BoundMethod::kHoeffding && IsRowMean(s.metric)) {
     // The interval is the shown estimate +- (eps + step/2): a function of the
     // shown estimate alone, so a reveal takes one of the grid's values. It
     // still holds, since the true mean is within step/2 of the shown one.
@@ -288,25 +347,21 @@ RevealedAnswer RevealAnswer(const MetricSample& s, const Bound& b, BoundMethod m
     a.upper = GridUp(a.estimate + eps, lo, hi, a.step);
     a.log_values = log_grid;
   } else {
+    // Three grid values are shown. (Balanced accuracy's and AUC's intervals
+    // depend on the holdout's class counts, which are not public.)
     a.lower = GridDown(b.lower, lo, hi, a.step);
     a.upper = GridUp(b.upper, lo, hi, a.step);
-    // Three grid values are shown; fewer answers are possible when all three
-    // are functions of a count.
     a.log_values = 3 * log_grid;
   }
-  if (s.successes) {
-    // A 0/1 metric: every method's answer is a function of k in 0..n.
-    a.log_values = std::fmin(a.log_values, std::log(static_cast<double>(s.n) + 1));
-  } else if (s.metric == Metric::kBalancedAccuracy) {
-    double l = 0;
-    for (uint64_t rows : s.class_rows) l += std::log(static_cast<double>(rows) + 1);
-    a.log_values = std::fmin(a.log_values, l);
-  } else if (s.metric == Metric::kAuc) {
-    // AUC = U / (m n) with U a multiple of 1/2, and the interval a function of it.
-    const double mn = static_cast<double>(s.positives) * static_cast<double>(s.negatives);
-    a.log_values = std::fmin(a.log_values, std::log(2 * mn + 1));
+  if (CanFallOutsideRange(s.metric)) {
+    // Whether some value fell outside the range is shown: one more bit.
+    a.log_values += std::log(2.0);
   }
   return a;
+}
+
+bool CanFallOutsideRange(Metric metric) {
+  return metric == Metric::kMse || metric == Metric::kMae;
 }
 
 }  // namespace unseen

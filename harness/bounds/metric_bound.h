@@ -81,13 +81,24 @@ Result<Bound> MetricBound(const MetricSample& sample, BoundMethod method, double
 // What a reveal shows: the estimate rounded to the reveal grid (1001 points
 // over the metric's range), the interval rounded outwards onto the same
 // grid, and ln R, the log of the number of different answers this reveal
-// could have shown (docs/bounds.md, "What a reveal costs").
+// could have shown (docs/bounds.md, "What an answer costs"). For a 0/1
+// metric the interval is the hull over every count that rounds to the
+// shown estimate, so the answer is a function of the shown estimate (R <=
+// min(n + 1, 1001)); for Hoeffding on a row mean it is the shown estimate
+// +- (eps + step/2) (R = 1001); otherwise three grid values (R = 1001^3).
+// Metrics whose values can fall outside the range (CanFallOutsideRange)
+// also show whether any did: R doubles. InvalidArgument as MetricBound.
 struct RevealedAnswer {
   double estimate = 0, lower = 0, upper = 0;
   double step = 0;        // grid step: (range_hi - range_lo) / 1000
   double log_values = 0;  // ln R
 };
-RevealedAnswer RevealAnswer(const MetricSample& sample, const Bound& bound, BoundMethod method);
+Result<RevealedAnswer> RevealAnswer(const MetricSample& sample, BoundMethod method, double delta,
+                                    double log_hypotheses);
+
+// mse and mae: a target outside the declared range gives a value outside
+// the metric's range, clipped into it (the bound does not cover it).
+bool CanFallOutsideRange(Metric metric);
 
 // The reveal grid's number of points.
 constexpr uint64_t kRevealGridPoints = 1001;

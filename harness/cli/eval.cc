@@ -43,7 +43,7 @@ Result<std::pair<double, double>> ParseRange(const std::string& text) {
 std::string Num(double v) { return fmt::format("{:.6g}", v); }
 
 // One answer as `eval --json` prints it (the ledger's form is EvalAnswerRecord in
-// harness/ledger/entries.h: it adds log_values, and keeps no assumptions).
+// harness/ledger/entries.h: it adds code_length, and keeps no assumptions).
 nlohmann::json AnswerReportJson(const EvalAnswer& a) {
   return {{"model", a.model},
           {"kind", a.kind},
@@ -56,7 +56,10 @@ nlohmann::json AnswerReportJson(const EvalAnswer& a) {
           {"delta", a.delta},
           {"n", a.n},
           {"queries", a.queries},
-          {"reveals_before_freeze", a.reveals_before_freeze},
+          {"answer_index", a.answer_index},
+          {"log_share", a.log_share},
+          {"reveals_before", a.reveals_before},
+          {"log_transcript", a.log_transcript},
           {"log_hypotheses", a.log_hypotheses},
           {"resolution", a.step},
           {"range", {a.range_lo, a.range_hi}},
@@ -80,7 +83,7 @@ void PrintText(const EvalReport& r) {
   for (const EvalAnswer& a : r.answers) {
     fmt::print("{:<20} {:<17} {:>10} {:>10} {:>10}  {:<15} {:>6} {:>7} {:>7} {:>7}\n", a.model,
                a.metric, Num(a.estimate), Num(a.lower), Num(a.upper), a.method, Num(a.delta), a.n,
-               a.queries, a.reveals_before_freeze);
+               a.queries, a.reveals_before);
   }
   for (const EvalAnswer& a : r.answers) {
     if (a.mode == "ladder") {
@@ -100,21 +103,22 @@ void PrintText(const EvalReport& r) {
           "CONTAMINATED: {}: {}\n", a.model,
           a.taints.empty() ? std::string("evaluated before under an override") : a.taints[0]);
     }
-    if (a.outside_range > 0) {
+    if (a.outside_range) {
       fmt::print(
-          "warning: {}: {} holdout rows fell outside the loss range [{}, {}] ({}); the bound "
-          "does not cover them\n",
-          a.model, a.outside_range, Num(a.range_lo), Num(a.range_hi), a.range_source);
+          "warning: {}: some holdout rows fell outside the loss range [{}, {}] ({}) and were "
+          "clipped into it; the bound is about the clipped loss, not the true one\n",
+          a.model, Num(a.range_lo), Num(a.range_hi), a.range_source);
     }
   }
   fmt::print(
-      "Holdout queries: {} of {} used ({} by this call{}). Each interval holds, at confidence "
-      "1-delta, together with every query so far (ln H = {}).\n",
+      "Holdout queries: {} of {} used ({} by this call{}). With probability at least 1-delta "
+      "(delta = {}, fixed at seal), every interval this ledger has shown or will show holds at "
+      "once; each is final when shown.\n",
       r.queries_total, r.budget, r.queries_spent,
       r.budget_raises == 0
           ? std::string()
           : fmt::format("; the budget was raised {} times after the seal", r.budget_raises),
-      r.answers.empty() ? std::string("0") : Num(r.answers.back().log_hypotheses));
+      r.answers.empty() ? std::string("-") : Num(r.answers.back().delta));
   fmt::print(
       "The bounds assume the holdout is an independent sample of the population the model will "
       "meet; no bound corrects a sampling bias.\n");
@@ -132,8 +136,8 @@ Runner SetupEval(CLI::App& app) {
                   "error_rate, accuracy, balanced_accuracy, log_loss, brier, auc, mse, mae");
   cmd->add_option("--method", opt->req.method,
                   "hoeffding, clopper-pearson, bernstein (mcdiarmid for auc)");
-  cmd->add_option("--delta", opt->req.delta, "Overall failure probability of the intervals")
-      ->capture_default_str();
+  cmd->add_option("--delta", opt->req.delta,
+                  "The ledger's delta, fixed at seal (--budget-delta); given, it must match");
   cmd->add_option("--range", opt->range,
                   "Regression: the target range LO:HI (default: the source's)");
   cmd->add_option("--prob-floor", opt->req.prob_floor,

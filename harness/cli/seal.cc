@@ -106,7 +106,8 @@ Runner SetupSeal(CLI::App& app) {
   cmd->add_option("--budget-half-width", opt->budget_half_width,
                   "Also refuse a query once the Hoeffding half-width on a [0, 1] loss, over every "
                   "question so far, would pass W");
-  cmd->add_option("--budget-delta", opt->budget_delta, "The delta of --budget-half-width")
+  cmd->add_option("--delta,--budget-delta", opt->budget_delta,
+                  "The delta every holdout answer's interval shares (and --budget-half-width's)")
       ->capture_default_str();
   AddCommonOptions(cmd, &opt->common);
   return [opt, cmd]() -> Status {

@@ -275,28 +275,35 @@ struct ScoreBody {
 // One holdout answer as an eval entry records it (the answers array).
 // Mirrors workflow/eval.h's EvalAnswer field for field, except: the
 // answer's assumptions are not stored; `repeated` is repeat_of.has_value();
-// log_values and ladder_max_submissions are stored here only.
+// code_length and ladder_max_submissions are stored here only.
 // Required: model_digest, metric, method, delta, n, estimate, lower, upper,
-// step, range, range_source, outside_range, reveals_before_freeze,
-// log_weight, log_hypotheses, repeat_of (null for a reveal), contaminated.
+// step, range, range_source, outside_range, reveals_before,
+// log_transcript, log_hypotheses, repeat_of (null for a reveal), contaminated.
 // Defaults (answers before the Ladder and Thresholdout): mode "plain",
 // improved false, leader "", ladder_step 0, tau 0. Absent: model and kind
-// "", queries 0, taints empty, log_values and ladder_max_submissions none.
+// "", queries 0, taints empty, code_length and ladder_max_submissions none.
 struct EvalAnswerRecord {
   std::string model;
   std::string kind;  // "frozen" or "external"
   Digest256 model_digest{};
   std::string metric, method;
-  double delta = 0;
+  double delta = 0;  // the ledger's delta, shared by every answer
   uint64_t n = 0;
   double estimate = 0, lower = 0, upper = 0;  // as shown: on the reveal grid
   double step = 0;
   double range_lo = 0, range_hi = 1;  // "range": [lo, hi]
   std::string range_source;
-  uint64_t outside_range = 0;
+  bool outside_range = false;  // some value fell outside the range (mse, mae)
   uint64_t queries = 0;
-  uint64_t reveals_before_freeze = 0;
-  double log_weight = 0;
+  // The accounting (harness/bounds/accounting.h): this answer's number j
+  // among the ledger's answers, ln(delta / delta_j), the answers shown
+  // before the question was asked and their code length L, and
+  // log_hypotheses = log_share + log_transcript: the interval's level is
+  // delta * exp(-log_hypotheses).
+  uint64_t answer_index = 0;
+  double log_share = 0;
+  uint64_t reveals_before = 0;
+  double log_transcript = 0;
   double log_hypotheses = 0;
   std::optional<int64_t> repeat_of;  // the eval entry answered from; none: a reveal
   bool contaminated = false;
@@ -306,8 +313,9 @@ struct EvalAnswerRecord {
   std::string leader;
   double ladder_step = 0;
   double tau = 0;
-  // ln of the number of values a reveal could have shown; written on reveals only.
-  std::optional<double> log_values;
+  // The code length of what this answer showed, in nats (ln R for a plain
+  // answer); written on reveals only.
+  std::optional<double> code_length;
   // The Ladder's k, written on its reveals only.
   std::optional<uint64_t> ladder_max_submissions;
 
@@ -320,6 +328,8 @@ struct EvalAnswerRecord {
 struct EvalThresholdout {
   ThresholdoutParams params;  // {"tau", "threshold", "sigma", "m", "budget", "beta"}
   Digest256 state{};
+  uint64_t run_start = 0;    // the answer_index of the run's first answer
+  uint64_t run_answers = 0;  // the run's answers up to and including this entry's
 };
 
 // The external predictor of an `eval --command`: its identity.
@@ -335,7 +345,7 @@ struct EvalExternal {
 // in entries before Thresholdout, null after). Others absent: zero, none.
 //
 // Writing (workflow/eval.cc): one EvalAnswerRecord per model in batch
-// order, from its EvalAnswer plus log_values on a reveal (and
+// order, from its EvalAnswer plus code_length on a reveal (and
 // ladder_max_submissions on a Ladder reveal); the batch totals; parents =
 // the frozen models' fit entries; then AppendEntry(ledger, actor, body,
 // blobs), with the thresholdout-state blob, if any, in `blobs`.
@@ -345,7 +355,7 @@ struct EvalExternal {
 // whose reveal() matches (model_digest, metric, method, delta, range); the
 // Ladder resumes from the reveals whose mode is "ladder" for the metric
 // (ladder_step, ladder_max_submissions, estimate, leader); Thresholdout
-// from the last body whose thresholdout is set; adaptivity sums log_values
+// from the last body whose thresholdout is set; adaptivity sums code_length
 // over the reveals before a model's fit entry.
 struct EvalBody {
   static constexpr std::string_view kKind = kKindEval;

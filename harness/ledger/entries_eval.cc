@@ -31,8 +31,10 @@ json AnswerRecordJson(const EvalAnswerRecord& a) {
             {"range_source", a.range_source},
             {"outside_range", a.outside_range},
             {"queries", a.queries},
-            {"reveals_before_freeze", a.reveals_before_freeze},
-            {"log_weight", a.log_weight},
+            {"answer_index", a.answer_index},
+            {"log_share", a.log_share},
+            {"reveals_before", a.reveals_before},
+            {"log_transcript", a.log_transcript},
             {"log_hypotheses", a.log_hypotheses},
             {"repeat_of", a.repeat_of ? json(*a.repeat_of) : json(nullptr)},
             {"contaminated", a.contaminated},
@@ -42,7 +44,7 @@ json AnswerRecordJson(const EvalAnswerRecord& a) {
             {"leader", a.leader},
             {"ladder_step", a.ladder_step},
             {"tau", a.tau}};
-  if (a.log_values) j["log_values"] = *a.log_values;
+  if (a.code_length) j["code_length"] = *a.code_length;
   if (a.ladder_max_submissions) j["ladder_max_submissions"] = *a.ladder_max_submissions;
   return j;
 }
@@ -71,10 +73,12 @@ EvalAnswerRecord ReadAnswer(BodyReader& r, size_t i) {
     r.Fail("'" + at("range") + "' should be [lo, hi]");
   }
   a.range_source = r.Required<std::string>(at("range_source"));
-  a.outside_range = r.Required<uint64_t>(at("outside_range"));
+  a.outside_range = r.Required<bool>(at("outside_range"));
   a.queries = r.Optional<uint64_t>(at("queries"));
-  a.reveals_before_freeze = r.Required<uint64_t>(at("reveals_before_freeze"));
-  a.log_weight = r.Required<double>(at("log_weight"));
+  a.answer_index = r.Required<uint64_t>(at("answer_index"));
+  a.log_share = r.Required<double>(at("log_share"));
+  a.reveals_before = r.Required<uint64_t>(at("reveals_before"));
+  a.log_transcript = r.Required<double>(at("log_transcript"));
   a.log_hypotheses = r.Required<double>(at("log_hypotheses"));
   a.repeat_of = r.Nullable<int64_t>(at("repeat_of"), /*required=*/true);
   a.contaminated = r.Required<bool>(at("contaminated"));
@@ -84,7 +88,7 @@ EvalAnswerRecord ReadAnswer(BodyReader& r, size_t i) {
   a.leader = r.Optional<std::string>(at("leader"));
   a.ladder_step = r.Optional<double>(at("ladder_step"), 0.0);
   a.tau = r.Optional<double>(at("tau"), 0.0);
-  a.log_values = r.Nullable<double>(at("log_values"));
+  a.code_length = r.Nullable<double>(at("code_length"));
   a.ladder_max_submissions = r.Nullable<uint64_t>(at("ladder_max_submissions"));
   return a;
 }
@@ -96,7 +100,9 @@ json ThresholdoutJson(const EvalThresholdout& t) {
           {"m", t.params.m},
           {"budget", t.params.budget},
           {"beta", t.params.beta},
-          {"state", ToHex(t.state)}};
+          {"state", ToHex(t.state)},
+          {"run_start", t.run_start},
+          {"run_answers", t.run_answers}};
 }
 
 EvalThresholdout ReadThresholdout(BodyReader& r) {
@@ -108,6 +114,8 @@ EvalThresholdout ReadThresholdout(BodyReader& r) {
   t.params.budget = r.Required<uint64_t>("thresholdout.budget");
   t.params.beta = r.Required<double>("thresholdout.beta");
   t.state = r.RequiredDigest("thresholdout.state");
+  t.run_start = r.Required<uint64_t>("thresholdout.run_start");
+  t.run_answers = r.Required<uint64_t>("thresholdout.run_answers");
   return t;
 }
 
@@ -227,9 +235,10 @@ namespace {
 auto Tie(const EvalAnswerRecord& a) {
   return std::tie(a.model, a.kind, a.model_digest, a.metric, a.method, a.delta, a.n, a.estimate,
                   a.lower, a.upper, a.step, a.range_lo, a.range_hi, a.range_source, a.outside_range,
-                  a.queries, a.reveals_before_freeze, a.log_weight, a.log_hypotheses, a.repeat_of,
+                  a.queries, a.answer_index, a.log_share, a.reveals_before, a.log_transcript,
+                  a.log_hypotheses, a.repeat_of,
                   a.contaminated, a.taints, a.mode, a.improved, a.leader, a.ladder_step, a.tau,
-                  a.log_values, a.ladder_max_submissions);
+                  a.code_length, a.ladder_max_submissions);
 }
 
 }  // namespace
@@ -239,8 +248,10 @@ bool operator==(const EvalAnswerRecord& a, const EvalAnswerRecord& b) { return T
 bool operator==(const EvalThresholdout& a, const EvalThresholdout& b) {
   const ThresholdoutParams& p = a.params;
   const ThresholdoutParams& q = b.params;
-  return std::tie(p.tau, p.threshold, p.sigma, p.m, p.budget, p.beta, a.state) ==
-         std::tie(q.tau, q.threshold, q.sigma, q.m, q.budget, q.beta, b.state);
+  return std::tie(p.tau, p.threshold, p.sigma, p.m, p.budget, p.beta, a.state, a.run_start,
+                  a.run_answers) ==
+         std::tie(q.tau, q.threshold, q.sigma, q.m, q.budget, q.beta, b.state, b.run_start,
+                  b.run_answers);
 }
 
 bool operator==(const EvalExternal& a, const EvalExternal& b) {

@@ -19,6 +19,7 @@ SealInfo SealInfoOf(const SealBody& b, int64_t seq) {
   s.holdout_encoding = b.holdout.encoding;
   s.key = b.key;
   s.budget_queries = b.budget_queries;
+  s.sealed_budget_queries = b.budget_queries;
   s.budget_half_width = b.budget_half_width;
   s.budget_delta = b.budget_delta;
   s.dev_out_path = b.dev.file_path;

@@ -29,6 +29,7 @@ struct SealInfo {
   std::string holdout_encoding = "csv";
   KeyInfo key;
   uint64_t budget_queries = 0;  // set at seal, plus every `budget` entry's raise
+  uint64_t sealed_budget_queries = 0;  // as set at seal: the accounting splits delta over it
   double budget_half_width = 0;  // 0: no half-width limit
   double budget_delta = 0.05;
   std::string dev_out_path;  // where seal wrote the development rows

@@ -78,7 +78,7 @@ Status RefuseOverBudget(EvalRun* run) {
 }
 
 // The half-width accepted at seal, known before any holdout value is read:
-// it depends on n and ln H only.
+// it depends on n and the level of the call's last new answer only.
 Status RefuseTooWide(EvalRun* run) {
   const SealInfo& seal = *run->st.seal;
   if (!(seal.budget_half_width > 0) || run->new_queries == 0) return Status::OK();
@@ -88,8 +88,8 @@ Status RefuseTooWide(EvalRun* run) {
   if (eps <= seal.budget_half_width) return Status::OK();
   return Refuse(run,
                 "the holdout budget is spent: after " + std::to_string(run->st.holdout_queries) +
-                    " queries and the reveals before these models were frozen (ln H = " +
-                    std::to_string(run->log_h) + "), the Hoeffding half-width would be " +
+                    " answers (level delta * exp(-" + std::to_string(run->log_h) +
+                    ") for this call's last), the Hoeffding half-width would be " +
                     std::to_string(eps) + ", wider than the " +
                     std::to_string(seal.budget_half_width) + " accepted at seal (delta " +
                     std::to_string(seal.budget_delta) + ")",
@@ -164,11 +164,11 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<EvalRun> run, OpenRun(req));
   // What is asked, and whether the guard refuses it; nothing is revealed yet.
   UNSEEN_RETURN_IF_ERROR(PlanQueries(run.get()));
+  PlaceAnswers(run.get());
   UNSEEN_RETURN_IF_ERROR(RefuseTainted(run.get()));
   UNSEEN_RETURN_IF_ERROR(RefuseOverBudget(run.get()));
   UNSEEN_RETURN_IF_ERROR(ReplayLadder(run.get()));
   UNSEEN_RETURN_IF_ERROR(LoadThresholdout(run.get()));
-  WeighAdaptivity(run.get());
   UNSEEN_RETURN_IF_ERROR(RefuseTooWide(run.get()));
   // The holdout is read only past this point.
   UNSEEN_RETURN_IF_ERROR(OpenGuard(run.get()));

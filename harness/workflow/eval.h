@@ -36,7 +36,9 @@ struct EvalRequest {
   std::optional<KeySpec> key;  // needed unless every query is a repeat
   std::string metric;          // empty: error_rate or mse
   std::string method;          // empty: the metric's default
-  double delta = 0.05;
+  // The ledger's delta is fixed at seal and shared by every answer; a value
+  // given here must equal it (InvalidArgument otherwise).
+  std::optional<double> delta;
   std::optional<std::pair<double, double>> range;  // regression target range; else the source's
   double prob_floor = 1e-4;                        // log loss
   std::string accept_contamination;                // non-empty: evaluate tainted models anyway
@@ -55,17 +57,23 @@ struct EvalAnswer {
   std::string kind;  // "frozen" (a pipeline or a blend) or "external"
   Digest256 model_digest{};
   std::string metric, method;
-  double delta = 0;
+  double delta = 0;  // the ledger's
   uint64_t n = 0;
   double estimate = 0, lower = 0, upper = 0;  // as shown: on the reveal grid
   double step = 0;
-  uint64_t queries = 0;                // holdout queries the bound accounts for
-  uint64_t reveals_before_freeze = 0;  // answers shown before this model was frozen
-  double log_hypotheses = 0;           // ln H of the union bound
-  double log_weight = 0;               // this query's share: sum of ln R over those reveals
+  uint64_t queries = 0;  // holdout queries the ledger has answered, this call's included
+  // The accounting (harness/bounds/accounting.h, docs/bounds.md): the
+  // answer's number j, ln(delta / delta_j), the answers shown before the
+  // question was asked and their code length L; the interval holds at level
+  // delta * exp(-log_hypotheses), log_hypotheses = log_share + log_transcript.
+  uint64_t answer_index = 0;
+  double log_share = 0;
+  uint64_t reveals_before = 0;
+  double log_transcript = 0;
+  double log_hypotheses = 0;
   double range_lo = 0, range_hi = 1;   // the metric's range
   std::string range_source;
-  uint64_t outside_range = 0;
+  bool outside_range = false;  // mse, mae: some value fell outside the range and was clipped
   bool repeated = false;  // answered from an earlier eval entry
   int64_t repeat_of = 0;
   bool contaminated = false;

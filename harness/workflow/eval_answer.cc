@@ -5,7 +5,9 @@
 #include <cmath>
 #include <cstring>
 
+#include "harness/bounds/accounting.h"
 #include "harness/bounds/adaptivity.h"
+#include "harness/bounds/bounds.h"
 #include "harness/workflow/eval_steps.h"
 #include "storage/seal_crypto.h"
 
@@ -34,8 +36,10 @@ EvalAnswerRecord RecordOf(const EvalAnswer& a, const Shown& s) {
   r.range_source = a.range_source;
   r.outside_range = a.outside_range;
   r.queries = a.queries;
-  r.reveals_before_freeze = a.reveals_before_freeze;
-  r.log_weight = a.log_weight;
+  r.answer_index = a.answer_index;
+  r.log_share = a.log_share;
+  r.reveals_before = a.reveals_before;
+  r.log_transcript = a.log_transcript;
   r.log_hypotheses = a.log_hypotheses;
   if (a.repeated) r.repeat_of = a.repeat_of;
   r.contaminated = a.contaminated;
@@ -45,7 +49,7 @@ EvalAnswerRecord RecordOf(const EvalAnswer& a, const Shown& s) {
   r.leader = a.leader;
   r.ladder_step = a.ladder_step;
   r.tau = a.tau;
-  r.log_values = s.log_values;
+  r.code_length = s.code_length;
   r.ladder_max_submissions = s.ladder_max_submissions;
   return r;
 }
@@ -58,7 +62,7 @@ void FillAnswer(EvalRun* run, const Query& q, const Shown& s) {
   a.model_digest = q.digest;
   a.metric = run->metric_name;
   a.method = run->method_name;
-  a.delta = run->req->delta;
+  a.delta = run->delta;
   a.taints = q.taints;
   a.contaminated = !q.taints.empty() || s.was_contaminated;
   a.queries = run->report.queries_total;
@@ -73,8 +77,10 @@ void FillAnswer(EvalRun* run, const Query& q, const Shown& s) {
   a.range_hi = s.range_hi;
   a.range_source = s.range_source;
   a.outside_range = s.outside_range;
-  a.reveals_before_freeze = s.reveals_before_freeze;
-  a.log_weight = s.log_weight;
+  a.answer_index = s.answer_index;
+  a.log_share = s.log_share;
+  a.reveals_before = s.reveals_before;
+  a.log_transcript = s.log_transcript;
   a.log_hypotheses = s.log_hypotheses;
   a.mode = s.mode;
   a.improved = s.improved;
@@ -86,17 +92,19 @@ void FillAnswer(EvalRun* run, const Query& q, const Shown& s) {
   run->report.answers.push_back(std::move(a));
 }
 
-// What every new answer shows about the sample and the query's adaptivity.
-Shown NewShown(const Query& q, const MetricSample& sample, double log_hypotheses) {
+// What every new answer shows about the sample and its place in the accounting.
+Shown NewShown(const EvalRun& run, const Query& q, const MetricSample& sample) {
   Shown s;
   s.n = sample.n;
   s.range_lo = sample.range_lo;
   s.range_hi = sample.range_hi;
   s.range_source = "metric";
-  s.outside_range = sample.outside_range;
-  s.reveals_before_freeze = q.reveals_before;
-  s.log_weight = q.log_weight;
-  s.log_hypotheses = log_hypotheses;
+  s.outside_range = sample.outside_range > 0;
+  s.answer_index = q.answer_index;
+  s.log_share = q.log_share;
+  s.reveals_before = run.reveals_before;
+  s.log_transcript = run.log_transcript;
+  s.log_hypotheses = q.log_hypotheses;
   return s;
 }
 
@@ -114,8 +122,10 @@ Shown RepeatShown(const PastAnswer& p) {
   s.range_hi = b.range_hi;
   s.range_source = b.range_source;
   s.outside_range = b.outside_range;
-  s.reveals_before_freeze = b.reveals_before_freeze;
-  s.log_weight = b.log_weight;
+  s.answer_index = b.answer_index;
+  s.log_share = b.log_share;
+  s.reveals_before = b.reveals_before;
+  s.log_transcript = b.log_transcript;
   s.log_hypotheses = b.log_hypotheses;
   s.mode = b.mode;
   s.improved = b.improved;
@@ -124,7 +134,8 @@ Shown RepeatShown(const PastAnswer& p) {
   s.tau = b.tau;
   s.was_contaminated = b.contaminated;
   s.assumptions = "answered from entry " + std::to_string(p.entry) +
-                  ": the same question was asked before, so nothing new is revealed";
+                  ": the same question was asked before, so nothing new is revealed; the "
+                  "interval is final when shown and still holds together with every other";
   return s;
 }
 
@@ -149,12 +160,24 @@ Result<MetricSample> Sample(EvalRun* run, const Query& q) {
   return sample;
 }
 
+// The guarantee every new answer shares (docs/bounds.md, "One accounting").
+std::string Guarantee(const EvalRun& run, const Query& q) {
+  return "With probability at least 1 - delta (delta = " + std::to_string(run.delta) +
+         ", fixed at seal) every interval this ledger has shown or will show holds at once. "
+         "This is answer " +
+         std::to_string(q.answer_index) + ", given delta_j = delta * exp(-" +
+         std::to_string(q.log_share) + ") and asked after " + std::to_string(run.reveals_before) +
+         " answers of " + std::to_string(run.log_transcript) +
+         " nats: its level is delta * exp(-" + std::to_string(q.log_hypotheses) + "). ";
+}
+
 // A plain answer: the estimate and interval on the reveal grid.
 Result<Shown> PlainShown(EvalRun* run, const Query& q, const MetricSample& sample) {
   const MetricSetup& setup = run->setup;
-  UNSEEN_ASSIGN_OR_RETURN(Bound b, MetricBound(sample, setup.method, run->req->delta, run->log_h));
-  RevealedAnswer shown = RevealAnswer(sample, b, setup.method);
-  Shown s = NewShown(q, sample, run->log_h);
+  UNSEEN_ASSIGN_OR_RETURN(RevealedAnswer shown,
+                          RevealAnswer(sample, setup.method, run->delta, q.log_hypotheses));
+  UNSEEN_ASSIGN_OR_RETURN(Bound b, MetricBound(sample, setup.method, run->delta, q.log_hypotheses));
+  Shown s = NewShown(*run, q, sample);
   s.estimate = shown.estimate;
   s.lower = shown.lower;
   s.upper = shown.upper;
@@ -164,50 +187,55 @@ Result<Shown> PlainShown(EvalRun* run, const Query& q, const MetricSample& sampl
   } else if (setup.metric == Metric::kLogLoss) {
     s.range_source = "prob-floor";
   }
-  s.assumptions = b.assumptions;
-  s.log_values = shown.log_values;
+  s.assumptions = Guarantee(*run, q) + b.assumptions;
+  s.code_length = PlainAnswerCodeLength(shown.log_values);
   return s;
 }
 
-// Algorithm 1 of the Ladder on the loss; the interval is for the leader's true loss.
+// Algorithm 1 of the Ladder on the loss; the interval is for the leader's
+// true loss, set when the leader took the board and shown unchanged until
+// another does.
 Result<Shown> LadderShown(EvalRun* run, const Query& q, const MetricSample& sample) {
   LadderRun& l = run->ladder;
-  UNSEEN_ASSIGN_OR_RETURN(double eps, LadderEpsilon(sample.n, run->req->delta, l.params));
+  const double w = l.params.range_hi - l.params.range_lo;
+  UNSEEN_ASSIGN_OR_RETURN(double eps, OneSidedHoeffdingEpsilon(sample.n, w, run->delta,
+                                                               q.log_hypotheses + std::log(2.0)));
   LadderStepResult step = LadderStep(l.value, sample.mean, l.params.step);
   l.value = step.released;
-  if (step.improved) l.leader = q.name;
-  const double half = l.params.step / 2 + eps;
-  Shown s = NewShown(q, sample, LadderLogSubmissions(l.params));
+  if (step.improved) {
+    l.leader = q.name;
+    const double half = l.params.step / 2 + eps;
+    l.lower = std::fmax(sample.range_lo, step.released - half);
+    l.upper = std::fmin(sample.range_hi, step.released + half);
+  }
+  Shown s = NewShown(*run, q, sample);
   s.mode = "ladder";
   s.improved = step.improved;
   s.leader = l.leader;
   s.ladder_step = l.params.step;
   s.estimate = step.released;
-  s.lower = std::fmax(sample.range_lo, step.released - half);
-  s.upper = std::fmin(sample.range_hi, step.released + half);
+  s.lower = l.lower;
+  s.upper = l.upper;
   s.step = l.params.step;
   s.assumptions =
-      "The Ladder (Blum & Hardt 2015): the interval holds for the leader's true loss, "
-      "together with every submission the ladder can answer (" +
-      std::to_string(l.params.max_submissions) +
-      "), for any adaptive analyst; the holdout rows are an independent sample of the "
-      "population the model will meet, and no bound corrects a sampling bias.";
-  // A ladder answer is one of the grid's values or "no change".
-  s.log_values =
-      std::log(std::floor((l.params.range_hi - l.params.range_lo) / l.params.step) + 3);
+      Guarantee(*run, q) +
+      "The Ladder (Blum & Hardt 2015): the interval is for the leader's true loss, computed "
+      "when it took the board; the holdout rows are an independent sample of the population "
+      "the model will meet, and no bound corrects a sampling bias.";
+  // A ladder answer is "no change" or one of the grid's values.
+  const uint64_t grid = static_cast<uint64_t>(std::floor(w / l.params.step)) + 2;
+  s.code_length = LadderAnswerCodeLength(step.improved, l.params.max_submissions, grid);
   s.ladder_max_submissions = l.params.max_submissions;
   return s;
 }
 
 // Thresholdout: the training-rows value unless the holdout disagrees beyond
-// the noisy threshold. Refused when its budget runs out inside the batch.
+// the noisy threshold. LoadThresholdout() made sure the run's budget covers
+// every query of the call before any noise is drawn.
 Result<Shown> ThresholdoutShown(EvalRun* run, const Query& q, const MetricSample& sample) {
   ThresholdoutRun& t = run->tho;
   if (t.state.budget_left == 0) {
-    return Refuse(run,
-                  "thresholdout's overfitting budget (B = " + std::to_string(t.params.budget) +
-                      ") ran out in this batch at model '" + q.name + "'",
-                  json{{"thresholdout_budget", t.params.budget}});
+    return Status::Internal("thresholdout: budget checked before the batch, yet spent");
   }
   UNSEEN_ASSIGN_OR_RETURN(double train, TrainingMean(run, q));
   const double w = sample.range_hi - sample.range_lo;
@@ -221,24 +249,29 @@ Result<Shown> ThresholdoutShown(EvalRun* run, const Query& q, const MetricSample
       ThresholdoutQuery(train, holdout, t.params, Laplace(draws[0], 4 * sigma),
                         Laplace(draws[1], sigma), Laplace(draws[2], 2 * sigma), &t.state);
   t.used_holdout.push_back(answer.used_holdout);
-  Shown s = NewShown(q, sample, run->log_h);
+  Shown s = NewShown(*run, q, sample);
   s.mode = "thresholdout";
   s.tau = t.params.tau;
   s.step = w / static_cast<double>(kRevealGridPoints - 1);
   s.estimate =
       RoundToResolution(sample.range_lo + w * answer.value, s.step, sample.range_lo, sample.range_hi);
-  s.lower = std::fmax(sample.range_lo, s.estimate - w * t.params.tau);
-  s.upper = std::fmin(sample.range_hi, s.estimate + w * t.params.tau);
+  // Theorem 25 bounds the unrounded answer; the shown one is within step/2 of it.
+  const double half = w * t.params.tau + s.step / 2;
+  s.lower = std::fmax(sample.range_lo, s.estimate - half);
+  s.upper = std::fmin(sample.range_hi, s.estimate + half);
   s.assumptions =
-      "Thresholdout (Dwork et al. 2015, Theorem 25): with probability at least 1 - delta, "
-      "every answer is within tau = " +
-      std::to_string(t.params.tau) +
-      " (on the [0, 1] scale of the metric's range) of the true value while fewer than B = " +
-      std::to_string(t.params.budget) + " answers used the holdout, over m = " +
+      "Thresholdout (Dwork et al. 2015, Theorem 25): this run began at answer " +
+      std::to_string(t.run_start) + " with beta = delta_j * exp(-L) of that answer (" +
+      std::to_string(t.params.beta) + "); with probability at least 1 - beta every answer the " +
+      "run gives before its overfitting budget (B = " + std::to_string(t.params.budget) +
+      ") is spent is within tau = " + std::to_string(t.params.tau) +
+      " (on the [0, 1] scale of the metric's range, plus half a grid step) of the true value, "
+      "over its m = " +
       std::to_string(t.params.m) +
-      " queries from any adaptive analyst; the holdout rows are an independent sample "
-      "of the population the model will meet, and no bound corrects a sampling bias.";
-  s.log_values = std::log(static_cast<double>(kRevealGridPoints));
+      " queries from any adaptive analyst; the holdout rows are an independent sample of the "
+      "population the model will meet, and no bound corrects a sampling bias.";
+  s.code_length = ThresholdoutAnswerCodeLength(answer.used_holdout, t.params.m,
+                                               std::log(static_cast<double>(kRevealGridPoints)));
   return s;
 }
 

@@ -2,7 +2,7 @@
 #include <limits>
 #include <set>
 
-#include "harness/bounds/adaptivity.h"
+#include "harness/bounds/accounting.h"
 #include "harness/ledger/lineage.h"
 #include "harness/ledger/models.h"
 #include "harness/workflow/eval_steps.h"
@@ -18,7 +18,7 @@ namespace {
 // metric, by the same method, at the same delta, over the same range.
 bool SameQuestion(const EvalAnswerRecord& a, const Digest256& digest, const EvalRun& run) {
   return a.model_digest == digest && a.metric == run.metric_name &&
-         a.method == run.method_name && a.delta == run.req->delta &&
+         a.method == run.method_name && a.delta == run.delta &&
          a.range_lo == run.setup.probe.range_lo && a.range_hi == run.setup.probe.range_hi;
 }
 
@@ -107,9 +107,11 @@ Result<MetricSetup> SetUpMetric(const EvalRequest& req, const LedgerState& st) {
     m.method = *parsed;
   }
   UNSEEN_RETURN_IF_ERROR(CheckBoundMethod(m.metric, m.method));
-  if (!(req.delta > 0 && req.delta < 1)) {
-    return Status::InvalidArgument("--delta " + std::to_string(req.delta) +
-                                   ": expected a value in (0, 1)");
+  if (req.delta && *req.delta != st.seal->budget_delta) {
+    return Status::InvalidArgument(
+        "--delta " + std::to_string(*req.delta) + ": every answer of this ledger shares delta " +
+        std::to_string(st.seal->budget_delta) +
+        ", fixed at seal (docs/bounds.md, \"One accounting\"); omit --delta");
   }
   if (req.range) {
     m.range.target_lo = req.range->first;
@@ -172,10 +174,10 @@ Result<std::vector<PastAnswer>> PastAnswers(const Ledger& ledger) {
   for (Decoded<EvalBody>& e : evals) {
     for (size_t i = 0; i < e.body.answers.size(); ++i) {
       PastAnswer p{e.entry.seq, std::move(e.body.answers[i])};
-      if (p.reveal() && !p.record.log_values) {
+      if (p.reveal() && !p.record.code_length) {
         return Status::Corruption("entry " + std::to_string(e.entry.seq) + " (eval): answer " +
                                   std::to_string(i) +
-                                  " is a reveal without 'log_values' (the values it could show)");
+                                  " is a reveal without 'code_length' (the nats it showed)");
       }
       out.push_back(std::move(p));
     }
@@ -207,22 +209,26 @@ Status PlanQueries(EvalRun* run) {
   return Status::OK();
 }
 
-void WeighAdaptivity(EvalRun* run) {
-  std::vector<double> weights;
+void PlaceAnswers(EvalRun* run) {
+  run->delta = run->st.seal->budget_delta;
+  run->reveals_before = 0;
+  run->log_transcript = 0;
   for (const PastAnswer& p : run->past) {
-    if (p.reveal()) weights.push_back(p.record.log_weight);
+    if (!p.reveal()) continue;
+    ++run->reveals_before;
+    run->log_transcript += *p.record.code_length;
   }
+  // Answers are numbered by the ledger's count of holdout queries, which
+  // every new answer raises by one.
+  uint64_t next = run->st.holdout_queries + 1;
+  run->log_h = 0;
   for (Query& q : run->queries) {
     if (q.repeat) continue;
-    for (const PastAnswer& p : run->past) {
-      if (p.reveal() && p.entry < q.frozen_at) {
-        q.log_weight += *p.record.log_values;
-        ++q.reveals_before;
-      }
-    }
-    weights.push_back(q.log_weight);
+    q.answer_index = next++;
+    q.log_share = LogDeltaShare(q.answer_index, run->st.seal->sealed_budget_queries);
+    q.log_hypotheses = q.log_share + run->log_transcript;
+    run->log_h = std::fmax(run->log_h, q.log_hypotheses);
   }
-  run->log_h = LogHypothesesOfWeights(weights);
 }
 
 }  // namespace unseen::internal

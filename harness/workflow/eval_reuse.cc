@@ -36,33 +36,47 @@ Status ReplayLadderAnswers(EvalRun* run) {
     }
     l.value = a.estimate;
     l.leader = a.leader;
+    if (a.improved) {
+      l.lower = a.lower;
+      l.upper = a.upper;
+    }
     ++l.used;
   }
   return Status::OK();
 }
 
-// The latest sealed Thresholdout state, if any eval entry holds one.
-Status ReadThresholdoutState(EvalRun* run) {
+// The latest Thresholdout run, if the ledger's latest answers belong to
+// it: its settings, where it began, how many answers it gave, and its
+// sealed state.
+Status ReadThresholdoutRun(EvalRun* run) {
   ThresholdoutRun& t = run->tho;
   UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<EvalBody>> evals,
                           ReadEntries<EvalBody>(*run->ledger));
+  const Decoded<EvalBody>* latest = nullptr;
   for (const Decoded<EvalBody>& e : evals) {
-    if (!e.body.thresholdout) continue;
-    t.params = e.body.thresholdout->params;
-    UNSEEN_ASSIGN_OR_RETURN(std::string blob, run->ledger->GetBlob(e.body.thresholdout->state));
-    UNSEEN_ASSIGN_OR_RETURN(std::string plain, OpenSealed(*run->key, t.aad, blob));
-    json state = json::parse(plain, nullptr, /*allow_exceptions=*/false);
-    const auto threshold = state.is_object() ? state.find("noisy_threshold") : state.end();
-    const auto left = state.is_object() ? state.find("budget_left") : state.end();
-    if (threshold == state.end() || !threshold->is_number() || left == state.end() ||
-        !left->is_number_unsigned()) {
-      return Status::Corruption("entry " + std::to_string(e.entry.seq) +
-                                " (eval): the sealed Thresholdout state is malformed");
-    }
-    t.state.noisy_threshold = threshold->get<double>();
-    t.state.budget_left = left->get<uint64_t>();
-    t.started = true;
+    if (e.body.thresholdout) latest = &e;
   }
+  if (latest == nullptr) return Status::OK();
+  const EvalThresholdout& rec = *latest->body.thresholdout;
+  // The run goes on only if no other answer came after its last one.
+  if (rec.run_start + rec.run_answers != run->st.holdout_queries + 1) return Status::OK();
+  t.params = rec.params;
+  t.run_start = rec.run_start;
+  t.answered = rec.run_answers;
+  UNSEEN_ASSIGN_OR_RETURN(std::string blob, run->ledger->GetBlob(rec.state));
+  UNSEEN_ASSIGN_OR_RETURN(std::string plain, OpenSealed(*run->key, t.aad, blob));
+  json state = json::parse(plain, nullptr, /*allow_exceptions=*/false);
+  const auto threshold = state.is_object() ? state.find("noisy_threshold") : state.end();
+  const auto left = state.is_object() ? state.find("budget_left") : state.end();
+  if (threshold == state.end() || !threshold->is_number() || left == state.end() ||
+      !left->is_number_unsigned()) {
+    return Status::Corruption("entry " + std::to_string(latest->entry.seq) +
+                              " (eval): the sealed Thresholdout state is malformed");
+  }
+  t.state.noisy_threshold = threshold->get<double>();
+  t.state.budget_left = left->get<uint64_t>();
+  // A run that gave its m answers or spent its budget is over.
+  t.started = t.answered < t.params.m && t.state.budget_left > 0;
   return Status::OK();
 }
 
@@ -93,7 +107,8 @@ Status ReplayLadder(EvalRun* run) {
                                    " ladder runs with step " + std::to_string(l.params.step) +
                                    "; expected the same step");
   }
-  UNSEEN_RETURN_IF_ERROR(LadderEpsilon(holdout_rows, req.delta, l.params).status());
+  // Checks the step and the size (the interval itself is per answer).
+  UNSEEN_RETURN_IF_ERROR(LadderEpsilon(holdout_rows, run->delta, l.params).status());
   if (l.used + run->new_queries > l.params.max_submissions) {
     return Refuse(run,
                   "the " + run->metric_name + " ladder was started for " +
@@ -113,23 +128,42 @@ Status LoadThresholdout(EvalRun* run) {
   if (!req.key)
     return Status::InvalidArgument("--key-file: the seal key is needed to read the holdout");
   UNSEEN_ASSIGN_OR_RETURN(run->key, KeyForSeal(*req.key, *run->st.seal, run->st.ledger_id));
-  UNSEEN_RETURN_IF_ERROR(ReadThresholdoutState(run));
+  UNSEEN_RETURN_IF_ERROR(ReadThresholdoutRun(run));
   if (!t.started) {
-    UNSEEN_ASSIGN_OR_RETURN(t.params,
-                            ThresholdoutForHoldout(run->st.seal->holdout_rows, run->report.budget,
-                                                   req.thresholdout_budget, req.delta));
+    // A new run, for the queries the budget has left. Its guarantee gets the
+    // level of its first answer (accounting.h), which covers every answer
+    // shown before it; its other answers use no share of delta of their own.
+    const Query* first = nullptr;
+    for (const Query& q : run->queries) {
+      if (!q.repeat && first == nullptr) first = &q;
+    }
+    const uint64_t m = run->report.budget - run->st.holdout_queries;
+    const double beta = run->delta * std::exp(-first->log_hypotheses);
+    auto params = ThresholdoutForHoldout(run->st.seal->holdout_rows, m, req.thresholdout_budget, beta);
+    if (!params.ok()) return Status::InvalidArgument("--thresholdout: " + params.status().message());
+    t.params = *params;
+    t.run_start = first->answer_index;
+    t.answered = 0;
     UNSEEN_ASSIGN_OR_RETURN(double u, UniformDraw());
     t.state.noisy_threshold = t.params.threshold + Laplace(u, 2 * t.params.sigma);
     t.state.budget_left = t.params.budget;
-  } else if (t.params.beta != req.delta) {
-    return Status::InvalidArgument("--delta: thresholdout runs at delta " +
-                                   std::to_string(t.params.beta) + "; expected the same delta");
+    t.started = true;
   }
-  if (t.state.budget_left < run->new_queries && t.state.budget_left == 0) {
+  // Every query of the call may use the holdout: the run must cover them all
+  // before any noise is drawn, so that no refusal can come after a draw.
+  const uint64_t room = std::min(t.state.budget_left, t.params.m - t.answered);
+  if (run->new_queries > room) {
     return Refuse(run,
-                  "thresholdout's overfitting budget (B = " + std::to_string(t.params.budget) +
-                      ") is spent; it answers no more queries",
-                  json{{"thresholdout_budget", t.params.budget}});
+                  "this Thresholdout run (begun at answer " + std::to_string(t.run_start) +
+                      ") can answer at most " + std::to_string(room) +
+                      " more queries in one call (overfitting budget left " +
+                      std::to_string(t.state.budget_left) + " of B = " +
+                      std::to_string(t.params.budget) + ", " +
+                      std::to_string(t.params.m - t.answered) + " of m = " +
+                      std::to_string(t.params.m) + " queries left); ask fewer models at once",
+                  json{{"thresholdout_budget", t.params.budget},
+                       {"thresholdout_room", room},
+                       {"asked", run->new_queries}});
   }
   return Status::OK();
 }
@@ -146,7 +180,12 @@ Result<EvalThresholdout> SealThresholdoutState(EvalRun* run) {
   UNSEEN_ASSIGN_OR_RETURN(std::string blob, writer->Finish());
   UNSEEN_ASSIGN_OR_RETURN(BlobRef ref, run->ledger->PutBlob("thresholdout-state", blob));
   run->blobs.push_back(ref);
-  return EvalThresholdout{t.params, ref.digest};
+  EvalThresholdout out;
+  out.params = t.params;
+  out.state = ref.digest;
+  out.run_start = t.run_start;
+  out.run_answers = t.answered + run->new_queries;
+  return out;
 }
 
 Result<double> TrainingMean(EvalRun* run, const Query& q) {

@@ -42,8 +42,11 @@ struct Query {
   std::shared_ptr<FrozenModel> frozen;  // frozen models, ready to apply
   std::vector<std::string> taints;
   const PastAnswer* repeat = nullptr;  // the earlier answer to the same question
-  double log_weight = 0;               // sum of ln R over the reveals before its freeze
-  uint64_t reveals_before = 0;
+  // New questions only (harness/bounds/accounting.h): the answer's number
+  // j, ln(delta / delta_j), and log_share + the call's log_transcript.
+  uint64_t answer_index = 0;
+  double log_share = 0;
+  double log_hypotheses = 0;
 };
 
 // The metric, its bound and its range, fixed before any holdout value is read.
@@ -59,16 +62,21 @@ struct MetricSetup {
 struct LadderRun {
   LadderParams params;
   std::optional<double> value;  // the leaderboard value so far
+  double lower = 0, upper = 0;  // the interval shown when the leader set it
   std::string leader;
   uint64_t used = 0;  // submissions answered before this call
   bool started = false;
 };
 
 // Thresholdout's settings (fixed at its first answer) and its secret state.
+// A run is the answers from one start: it ends after m answers, when its
+// overfitting budget is spent, or when the ledger gives any other answer.
 struct ThresholdoutRun {
   ThresholdoutParams params;
   ThresholdoutState state;
-  bool started = false;
+  bool started = false;     // a run is active (read from the ledger or started now)
+  uint64_t run_start = 0;   // the answer_index of the run's first answer
+  uint64_t answered = 0;    // the run's answers before this call
   std::vector<bool> used_holdout;  // per answer of this call
   std::string aad;                 // binds the sealed state to this ledger
 };
@@ -80,15 +88,15 @@ struct Shown {
   double estimate = 0, lower = 0, upper = 0, step = 0;
   double range_lo = 0, range_hi = 1;
   std::string range_source;
-  uint64_t outside_range = 0;
-  uint64_t reveals_before_freeze = 0;
-  double log_weight = 0, log_hypotheses = 0;
+  bool outside_range = false;
+  uint64_t answer_index = 0, reveals_before = 0;
+  double log_share = 0, log_transcript = 0, log_hypotheses = 0;
   std::string mode = "plain";
   bool improved = false;
   std::string leader;
   double ladder_step = 0, tau = 0;
   std::string assumptions;
-  std::optional<double> log_values;                 // ln R: absent for a repeat
+  std::optional<double> code_length;                // nats shown: absent for a repeat
   std::optional<uint64_t> ladder_max_submissions;   // Ladder answers only
   int64_t repeat_of = 0;                            // 0: a new answer
   bool was_contaminated = false;                    // a repeat of a contaminated answer
@@ -107,7 +115,10 @@ struct EvalRun {
   EvalReport report;
   LadderRun ladder;
   ThresholdoutRun tho;
-  double log_h = 0;  // ln H of the union bound, this call's queries included
+  double delta = 0.05;          // the ledger's, fixed at seal, shared by every answer
+  uint64_t reveals_before = 0;  // answers shown before this call
+  double log_transcript = 0;    // their code length L, in nats
+  double log_h = 0;             // the largest log_hypotheses of this call's new questions
   std::optional<Key> key;
   std::unique_ptr<HoldoutGuard> guard;
   std::optional<AdmittedData> train_rows;  // Thresholdout: loaded on first use
@@ -122,13 +133,15 @@ Result<MetricSetup> SetUpMetric(const EvalRequest& req, const LedgerState& st);
 // Options that exclude each other or do not fit the metric: InvalidArgument.
 Status CheckModes(const EvalRun& run);
 // Every answer in earlier eval entries. Corruption for a malformed entry, or
-// a reveal without the number of values it could show (log_values).
+// a reveal without the number of values it could show (code_length).
 Result<std::vector<PastAnswer>> PastAnswers(const Ledger& ledger);
 // The frozen models and the external predictor, with their lineage's taints,
 // and which questions were asked before; sets run->new_queries.
 Status PlanQueries(EvalRun* run);
-// The reveals before each new query's freeze, and ln H over every reveal.
-void WeighAdaptivity(EvalRun* run);
+// Numbers this call's new questions and gives each its level
+// (harness/bounds/accounting.h): the code length of every answer shown
+// before this call, and each answer's share of delta.
+void PlaceAnswers(EvalRun* run);
 
 // --- eval.cc: refusals (each rolls back and appends a `refusal` entry) ---
 

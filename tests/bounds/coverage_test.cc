@@ -59,7 +59,9 @@ TEST(CoverageTest, BestOfFixedModelsIsCoveredByEveryMethod) {
     for (int m = 0; m < 3; ++m) {
       auto b = MetricBound(best_sample, methods[m], kDelta, std::log(static_cast<double>(models)));
       ASSERT_TRUE(b.ok());
-      RevealedAnswer shown = RevealAnswer(best_sample, *b, methods[m]);
+      auto revealed = RevealAnswer(best_sample, methods[m], kDelta, std::log(double(models)));
+      ASSERT_TRUE(revealed.ok());
+      const RevealedAnswer& shown = *revealed;
       const double t = truth[static_cast<size_t>(best)];
       hits[m] += shown.lower <= t && t <= shown.upper;
     }
@@ -99,7 +101,9 @@ TEST(CoverageTest, AucIntervalCoversTheTrueAuc) {
     ASSERT_TRUE(s.ok());
     auto b = MetricBound(*s, BoundMethod::kMcDiarmid, kDelta, 0);
     ASSERT_TRUE(b.ok());
-    RevealedAnswer shown = RevealAnswer(*s, *b, BoundMethod::kMcDiarmid);
+    auto revealed = RevealAnswer(*s, BoundMethod::kMcDiarmid, kDelta, 0);
+    ASSERT_TRUE(revealed.ok());
+    const RevealedAnswer& shown = *revealed;
     hits += shown.lower <= truth && truth <= shown.upper;
   }
   std::printf("auc, mcdiarmid: coverage %.4f\n", Covered(hits));
@@ -132,7 +136,9 @@ TEST(CoverageTest, AdaptiveAnalystBeatsTheUnionBoundButNotTheAdaptiveOne) {
       MetricSample s = ErrorSample(wrong);
       auto b = MetricBound(s, BoundMethod::kClopperPearson, kDelta, 0);
       ASSERT_TRUE(b.ok());
-      RevealedAnswer shown = RevealAnswer(s, *b, BoundMethod::kClopperPearson);
+      auto revealed = RevealAnswer(s, BoundMethod::kClopperPearson, kDelta, 0);
+      ASSERT_TRUE(revealed.ok());
+      const RevealedAnswer& shown = *revealed;
       log_weights.push_back(0);  // each feature was fixed before any reveal
       revealed_log_values += shown.log_values;
       const int sign = shown.estimate < 0.5 ? 1 : -1;  // what the analyst saw

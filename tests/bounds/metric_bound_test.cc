@@ -116,8 +116,11 @@ TEST(RevealTest, HoeffdingAnswerIsAFunctionOfTheShownEstimate) {
   auto ba = MetricBound(a, BoundMethod::kHoeffding, 0.05, 0);
   auto bb = MetricBound(b, BoundMethod::kHoeffding, 0.05, 0);
   ASSERT_TRUE(ba.ok() && bb.ok());
-  RevealedAnswer ra = RevealAnswer(a, *ba, BoundMethod::kHoeffding);
-  RevealedAnswer rb = RevealAnswer(b, *bb, BoundMethod::kHoeffding);
+  auto shown_a = RevealAnswer(a, BoundMethod::kHoeffding, 0.05, 0);
+  auto shown_b = RevealAnswer(b, BoundMethod::kHoeffding, 0.05, 0);
+  ASSERT_TRUE(shown_a.ok() && shown_b.ok());
+  const RevealedAnswer& ra = *shown_a;
+  const RevealedAnswer& rb = *shown_b;
   EXPECT_DOUBLE_EQ(ra.estimate, 0.2);
   EXPECT_DOUBLE_EQ(ra.lower, rb.lower);
   EXPECT_DOUBLE_EQ(ra.upper, rb.upper);
@@ -136,7 +139,9 @@ TEST(RevealTest, CountAnswersTakeAtMostNPlusOneValues) {
   s.estimate = s.mean = 0.14;
   auto b = MetricBound(s, BoundMethod::kClopperPearson, 0.05, 0);
   ASSERT_TRUE(b.ok());
-  RevealedAnswer r = RevealAnswer(s, *b, BoundMethod::kClopperPearson);
+  auto shown = RevealAnswer(s, BoundMethod::kClopperPearson, 0.05, 0);
+  ASSERT_TRUE(shown.ok());
+  const RevealedAnswer& r = *shown;
   EXPECT_NEAR(r.log_values, std::log(51.0), 1e-12);
   EXPECT_LE(r.lower, b->lower);
   EXPECT_GE(r.upper, b->upper);

@@ -119,7 +119,8 @@ TEST_F(EvalTest, BatchReportsEachModelWithItsEstimateAndBound) {
   json out = json::parse(r.out);
   ASSERT_EQ(out.size(), 2u);
   EXPECT_EQ(out[0]["queries_spent"], 2);
-  for (const json& a : out) {
+  for (size_t j = 1; j <= out.size(); ++j) {
+    const json& a = out[j - 1];
     for (const char* key :
          {"model", "metric", "estimate", "lower", "upper", "method", "delta", "n", "queries"}) {
       EXPECT_TRUE(a.contains(key)) << key;
@@ -128,20 +129,26 @@ TEST_F(EvalTest, BatchReportsEachModelWithItsEstimateAndBound) {
     EXPECT_EQ(a["method"], "clopper-pearson");
     EXPECT_EQ(a["n"], Status()["holdout_rows"]);
     EXPECT_EQ(a["queries"], 2);
-    // A batch frozen before any reveal costs only its size: H = 2.
-    EXPECT_NEAR(a["log_hypotheses"].get<double>(), std::log(2.0), 1e-12);
-    EXPECT_EQ(a["reveals_before_freeze"], 0);
+    // Answers 1 and 2 of a ledger sealed with a budget of 100, asked before
+    // any answer was shown: each gets delta_j = delta/2 (1/(j(j+1)) + 1/100)
+    // (docs/bounds.md, "One accounting"), and nothing more.
+    const double share = std::log(2 / (1.0 / (j * (j + 1.0)) + 0.01));
+    EXPECT_EQ(a["answer_index"], j);
+    EXPECT_NEAR(a["log_share"].get<double>(), share, 1e-12);
+    EXPECT_NEAR(a["log_hypotheses"].get<double>(), share, 1e-12);
+    EXPECT_EQ(a["reveals_before"], 0);
     auto [errors, n] = HoldoutErrors(a["model"]);
     ASSERT_EQ(n, a["n"].get<uint64_t>());
     // The shown estimate is the error rate on the reveal grid (step 0.001).
     EXPECT_NEAR(a["estimate"].get<double>(), std::round(1000.0 * errors / n) / 1000, 1e-12);
-    // The interval: Clopper–Pearson at delta/2 per model, rounded outwards.
+    // The interval: Clopper–Pearson at delta_j, rounded outwards (with
+    // n = 100 no other count rounds to the same estimate).
     BoundRequest b;
     b.method = BoundMethod::kClopperPearson;
     b.n = n;
     b.successes = errors;
     b.mean = static_cast<double>(errors) / n;
-    b.log_hypotheses = std::log(2.0);
+    b.log_hypotheses = share;
     auto want = ComputeBound(b);
     ASSERT_TRUE(want.ok());
     EXPECT_LE(a["lower"].get<double>(), want->lower);
@@ -203,17 +210,30 @@ TEST_F(EvalTest, RepeatedQueryIsAnsweredFromTheLedgerWithoutBudgetOrKey) {
   EXPECT_NEAR(third[0]["estimate"].get<double>(), 1 - first["estimate"].get<double>(), 1e-9);
 }
 
-TEST_F(EvalTest, ModelFrozenAfterARevealCountsEveryAnswerItCouldHaveUsed) {
+TEST_F(EvalTest, QuestionAskedAfterARevealIsChargedForIt) {
+  // Both models are frozen before any answer; the second is asked after one.
   Fit("alpha");
+  Fit("gamma", "[learner]\nkind = \"logistic\"\nl2 = 5.0\n");
   json first = json::parse(Eval("alpha").out)[0];
   const double n = first["n"];
-  Fit("gamma", "[learner]\nkind = \"logistic\"\nl2 = 5.0\n");
+  EXPECT_EQ(first["reveals_before"], 0);
+  EXPECT_NEAR(first["log_transcript"].get<double>(), 0, 1e-12);
   json second = json::parse(Eval("gamma").out)[0];
-  EXPECT_EQ(second["reveals_before_freeze"], 1);
-  // alpha: frozen before any reveal (weight 1); gamma: after one
-  // Clopper–Pearson answer, which is a function of k in 0..n (n+1 values).
-  EXPECT_NEAR(second["log_hypotheses"].get<double>(), std::log(1.0 + (n + 1)), 1e-9);
+  EXPECT_EQ(second["reveals_before"], 1);
+  EXPECT_EQ(second["answer_index"], 2);
+  // The first answer (Clopper–Pearson on n = 100 rows) is a function of its
+  // shown rate: one of n + 1 values. gamma's question could depend on it,
+  // whenever gamma was frozen.
+  EXPECT_NEAR(second["log_transcript"].get<double>(), std::log(n + 1), 1e-9);
+  const double share = std::log(2 / (1.0 / 6 + 0.01));
+  EXPECT_NEAR(second["log_hypotheses"].get<double>(), share + std::log(n + 1), 1e-9);
   EXPECT_EQ(second["queries"], 2);
+  // Asking alpha again returns its first interval unchanged: it was final.
+  json again = json::parse(Eval("alpha").out)[0];
+  EXPECT_EQ(again["repeated"], true);
+  EXPECT_EQ(again["lower"], first["lower"]);
+  EXPECT_EQ(again["upper"], first["upper"]);
+  EXPECT_EQ(again["log_hypotheses"], first["log_hypotheses"]);
 }
 
 TEST_F(EvalTest, BudgetIsEnforcedAndRaisingItIsAnEntry) {
@@ -469,7 +489,9 @@ TEST_F(EvalTest, ThresholdoutRefusesAHoldoutTooSmallForItsTheorem) {
 TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
   TempDir dir;
   auto Q = [&](const std::string& f) { return ShellQuote(dir.File(f)); };
-  WriteFile(dir.File("d.csv"), testing::SampleCsv(44000, 20, 9));
+  // 13,000 holdout rows: Theorem 25 at m = 10, B = 1 and beta = delta_1 (answer 1
+  // of a budget of 10) needs 12,117.
+  WriteFile(dir.File("d.csv"), testing::SampleCsv(52000, 20, 9));
   WriteFile(dir.File("s.toml"), kSpec);
   ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
   ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
@@ -492,20 +514,8 @@ TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
   const double tau = a["tau"];
   EXPECT_GT(tau, 0);
   EXPECT_LT(tau, 1);
-  // The plain answer on the same holdout: Thresholdout's answer is within tau of it here.
-  json plain = json::parse(
-      RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") + " alpha").out);
-  EXPECT_LT(std::fabs(a["estimate"].get<double>() - plain[0]["estimate"].get<double>()), tau);
-  json hist = json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
-  json entry;
-  for (const json& e : hist) {
-    if (e["kind"] == "eval" && !e["body"]["thresholdout"].is_null()) entry = e["body"];
-  }
-  ASSERT_FALSE(entry.is_null());
-  EXPECT_FALSE(
-      entry["thresholdout"].contains("noisy_threshold"));  // secret: in the sealed state blob
-  EXPECT_EQ(entry["thresholdout"]["budget"], 1);
-  // A second call reads the sealed state back and keeps the settings.
+  // A second call goes on with the same run: it reads the sealed state back
+  // and keeps the settings.
   WriteFile(dir.File("s2.toml"), "[learner]\nkind = \"logistic\"\nl2 = 50.0\n");
   ASSERT_EQ(
       RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("s2.toml") + " --name beta").exit_code,
@@ -514,6 +524,34 @@ TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
                                " --thresholdout --thresholdout-budget 1 beta");
   ASSERT_EQ(second.exit_code, 0) << second.err;
   EXPECT_EQ(json::parse(second.out)[0]["tau"], tau);
+  // The plain answer on the same holdout: Thresholdout's answer is within tau
+  // (plus half a grid step) of it here.
+  json plain = json::parse(
+      RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") + " alpha").out);
+  EXPECT_LT(std::fabs(a["estimate"].get<double>() - plain[0]["estimate"].get<double>()),
+            tau + 0.0005);
+  json hist = json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
+  std::vector<json> runs;
+  for (const json& e : hist) {
+    if (e["kind"] == "eval" && !e["body"]["thresholdout"].is_null()) runs.push_back(e["body"]);
+  }
+  ASSERT_EQ(runs.size(), 2u);
+  for (const json& entry : runs) {
+    EXPECT_FALSE(
+        entry["thresholdout"].contains("noisy_threshold"));  // secret: in the sealed state blob
+    EXPECT_EQ(entry["thresholdout"]["budget"], 1);
+    EXPECT_EQ(entry["thresholdout"]["run_start"], 1);
+    EXPECT_EQ(entry["thresholdout"]["m"], 10);
+  }
+  EXPECT_EQ(runs[0]["thresholdout"]["run_answers"], 1);
+  EXPECT_EQ(runs[1]["thresholdout"]["run_answers"], 2);
+  // The plain answer ended the run: the next Thresholdout call starts a new
+  // one whose beta is the level of answer 4, after three answers, and this
+  // holdout is too small for its theorem.
+  RunResult third = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                              " --thresholdout --thresholdout-budget 1 alpha --metric accuracy");
+  EXPECT_EQ(third.exit_code, 2) << third.out;
+  EXPECT_NE(third.err.find("needs a holdout of at least"), std::string::npos) << third.err;
   EXPECT_EQ(RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k")).exit_code, 0);
 }
 

@@ -124,11 +124,11 @@ TEST_F(EntriesTamperTest, ARevealWithoutItsValueCountCannotBeWeighed) {
       nlohmann::json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
   nlohmann::json body = history.back()["body"];
   for (const char* key : {"seq", "kind", "time", "actor", "tool", "blobs"}) body.erase(key);
-  body["answers"][0].erase("log_values");
+  body["answers"][0].erase("code_length");
   Append(body.dump());
   RunResult r = RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("k") + " m1");
   EXPECT_EQ(r.exit_code, 3) << r.out << r.err;
-  EXPECT_NE(r.err.find("entry 6 (eval): answer 0 is a reveal without 'log_values'"),
+  EXPECT_NE(r.err.find("entry 6 (eval): answer 0 is a reveal without 'code_length'"),
             std::string::npos)
       << r.err;
 }

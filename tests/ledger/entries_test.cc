@@ -249,10 +249,12 @@ EvalAnswerRecord SampleAnswer() {
   a.range_lo = 0;
   a.range_hi = 1;
   a.range_source = "metric";
-  a.outside_range = 1;
+  a.outside_range = true;
   a.queries = 3;
-  a.reveals_before_freeze = 1;
-  a.log_weight = 0.5;
+  a.answer_index = 3;
+  a.log_share = 1.0;
+  a.reveals_before = 1;
+  a.log_transcript = 0.5;
   a.log_hypotheses = 1.5;
   a.contaminated = true;
   a.taints = {"it peeked"};
@@ -261,7 +263,7 @@ EvalAnswerRecord SampleAnswer() {
   a.leader = "m1";
   a.ladder_step = 0.01;
   a.tau = 0.2;
-  a.log_values = 4.5;
+  a.code_length = 4.5;
   a.ladder_max_submissions = 100;
   return a;
 }
@@ -270,10 +272,10 @@ EvalBody SampleEval() {
   EvalBody b;
   EvalAnswerRecord repeat = SampleAnswer();
   repeat.repeat_of = 9;
-  repeat.log_values.reset();
+  repeat.code_length.reset();
   repeat.ladder_max_submissions.reset();
   b.answers = {SampleAnswer(), repeat};
-  b.thresholdout = EvalThresholdout{{0.25, 0.125, 0.0625, 100, 10, 0.05}, D(0x82)};
+  b.thresholdout = EvalThresholdout{{0.25, 0.125, 0.0625, 100, 10, 0.05}, D(0x82), 2, 4};
   b.external = EvalExternal{"ext", "python3 predict.py", {{"model.bin", D(0x83)}}, 60};
   b.queries_spent = 1;
   b.queries_total = 3;
@@ -497,28 +499,34 @@ TEST(EntriesTest, ScoreFieldsArePinned) {
 }
 
 TEST(EntriesTest, EvalFieldsArePinned) {
-  const std::string expected =
-      R"({"accept_contamination":"audit","answers":[{"contaminated":true,"delta":0.05,)"
+  const std::string answer =
+      R"("answer_index":3,"code_length":4.5,"contaminated":true,"delta":0.05,)"
       R"("estimate":0.5,"improved":true,"kind":"frozen","ladder_max_submissions":100,)"
-      R"("ladder_step":0.01,"leader":"m1","log_hypotheses":1.5,"log_values":4.5,)"
-      R"("log_weight":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
+      R"("ladder_step":0.01,"leader":"m1","log_hypotheses":1.5,"log_share":1.0,)"
+      R"("log_transcript":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
       R"("model":"m1",)"
       R"("model_digest":"8181818181818181818181818181818181818181818181818181818181818181",)"
-      R"("n":2,"outside_range":1,"queries":3,"range":[0.0,1.0],"range_source":"metric",)"
-      R"("repeat_of":null,"reveals_before_freeze":1,"step":0.001,"taints":["it peeked"],)"
-      R"("tau":0.2,"upper":0.75},{"contaminated":true,"delta":0.05,"estimate":0.5,)"
+      R"("n":2,"outside_range":true,"queries":3,"range":[0.0,1.0],"range_source":"metric",)"
+      R"("repeat_of":null,"reveals_before":1,"step":0.001,"taints":["it peeked"],)"
+      R"("tau":0.2,"upper":0.75)";
+  const std::string repeat =
+      R"("answer_index":3,"contaminated":true,"delta":0.05,"estimate":0.5,)"
       R"("improved":true,"kind":"frozen","ladder_step":0.01,"leader":"m1","log_hypotheses":1.5,)"
-      R"("log_weight":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
+      R"("log_share":1.0,)"
+      R"("log_transcript":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
       R"("model":"m1",)"
       R"("model_digest":"8181818181818181818181818181818181818181818181818181818181818181",)"
-      R"("n":2,"outside_range":1,"queries":3,"range":[0.0,1.0],"range_source":"metric",)"
-      R"("repeat_of":9,"reveals_before_freeze":1,"step":0.001,"taints":["it peeked"],"tau":0.2,)"
-      R"("upper":0.75}],"budget":100,"external":{"attached":[{"path":"model.bin",)"
+      R"("n":2,"outside_range":true,"queries":3,"range":[0.0,1.0],"range_source":"metric",)"
+      R"("repeat_of":9,"reveals_before":1,"step":0.001,"taints":["it peeked"],"tau":0.2,)"
+      R"("upper":0.75)";
+  const std::string expected =
+      R"({"accept_contamination":"audit","answers":[{)" + answer + "},{" + repeat +
+      R"(}],"budget":100,"external":{"attached":[{"path":"model.bin",)"
       R"("sha256":"8383838383838383838383838383838383838383838383838383838383838383"}],)"
       R"("command":"python3 predict.py","name":"ext","timeout_seconds":60.0},"holdout_rows":2,)"
       R"("log_hypotheses":1.5,"parents":[6],"queries_spent":1,"queries_total":3,)"
       R"("summary":"evaluated m1","thresholdout":{"beta":0.05,"budget":10,"m":100,)"
-      R"("sigma":0.0625,)"
+      R"("run_answers":4,"run_start":2,"sigma":0.0625,)"
       R"("state":"8282828282828282828282828282828282828282828282828282828282828282","tau":0.25,)"
       R"("threshold":0.125}})";
   EXPECT_EQ(EncodeFields(SampleEval()), expected);
@@ -708,7 +716,7 @@ TEST(EntriesTest, EvalBeforeTheLadderAndThresholdoutKeepsTheirDefaults) {
   json fields = json::parse(EncodeFields(SampleEval()));
   fields.erase("thresholdout");
   fields.erase("queries_spent");
-  for (const char* key : {"mode", "improved", "leader", "ladder_step", "tau", "log_values",
+  for (const char* key : {"mode", "improved", "leader", "ladder_step", "tau", "code_length",
                           "ladder_max_submissions"}) {
     fields["answers"][0].erase(key);
   }
