@@ -17,6 +17,14 @@ double LogDeltaShare(uint64_t answer, uint64_t sealed_budget) {
   return std::log(2.0) - (hi + std::log1p(std::exp(lo - hi)));
 }
 
+double LogQuestionCode(uint64_t reveals_before, double log_transcript,
+                       std::optional<double> log_advance_choices) {
+  if (reveals_before == 0) return 0;
+  double code = log_transcript;
+  if (log_advance_choices) code = std::min(code, *log_advance_choices);
+  return std::log(2.0) + code;
+}
+
 double PlainAnswerCodeLength(double log_values) { return log_values; }
 
 double LadderAnswerCodeLength(bool moved, uint64_t max_submissions, uint64_t grid_values) {

@@ -3,17 +3,19 @@
 // given: answer j is the j-th new answer of the ledger, whatever its mode
 // (plain, Ladder, Thresholdout) or metric. Answer j gets a fixed share
 // delta_j of the ledger's delta, chosen before any answer exists, with
-// sum_j delta_j <= delta; its question was chosen knowing the answers
-// before it, which can have taken at most exp(L_j) transcripts weighted by
-// a prefix code (Kraft's inequality). Answer j's interval is therefore
-// computed at level delta_j * exp(-L_j), and with probability at least
-// 1 - delta every interval the ledger has shown or will show holds at
-// once: a shown interval is final, and a repeated question returns it
+// sum_j delta_j <= delta. Its question was chosen knowing the answers
+// before it; a prefix code over what those answers could have shown
+// (Kraft's inequality), mixed with a code over the questions fixed before
+// the first answer, gives the question a code length Q_j, and answer j's
+// interval is computed at level delta_j * exp(-Q_j). With probability at
+// least 1 - delta every interval the ledger has shown or will show holds
+// at once: a shown interval is final, and a repeated question returns it
 // unchanged. Pure functions; thread-safe.
 #ifndef UNSEEN_HARNESS_BOUNDS_ACCOUNTING_H_
 #define UNSEEN_HARNESS_BOUNDS_ACCOUNTING_H_
 
 #include <cstdint>
+#include <optional>
 
 namespace unseen {
 
@@ -28,6 +30,20 @@ namespace unseen {
 // and no answer within the budget costs more than ln(2B). REQUIRES j >= 1
 // and B >= 1.
 double LogDeltaShare(uint64_t answer, uint64_t sealed_budget);
+
+// The code length, in nats, of the question of an answer asked after
+// `reveals_before` answers whose code lengths sum to L (log_transcript).
+// With no answer before, the question depends on nothing the holdout
+// showed: 0. Otherwise half of the answer's share covers every question
+// the transcript could have led to (L), and the other half every question
+// fixed in advance, when the question is one of those: a model frozen
+// before the ledger's first answer, asked a default question
+// (`log_advance_choices` = ln(models frozen then x kinds of default
+// question); absent when the question is not one of them):
+//
+//   ln 2 + min(L, log_advance_choices).
+double LogQuestionCode(uint64_t reveals_before, double log_transcript,
+                       std::optional<double> log_advance_choices);
 
 // The code length, in nats, of one plain answer that could have shown one
 // of R values: ln R.

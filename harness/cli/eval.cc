@@ -60,6 +60,7 @@ nlohmann::json AnswerReportJson(const EvalAnswer& a) {
           {"log_share", a.log_share},
           {"reveals_before", a.reveals_before},
           {"log_transcript", a.log_transcript},
+          {"log_question", a.log_question},
           {"log_hypotheses", a.log_hypotheses},
           {"resolution", a.step},
           {"range", {a.range_lo, a.range_hi}},

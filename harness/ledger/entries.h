@@ -297,13 +297,14 @@ struct EvalAnswerRecord {
   uint64_t queries = 0;
   // The accounting (harness/bounds/accounting.h): this answer's number j
   // among the ledger's answers, ln(delta / delta_j), the answers shown
-  // before the question was asked and their code length L, and
-  // log_hypotheses = log_share + log_transcript: the interval's level is
-  // delta * exp(-log_hypotheses).
+  // before the question was asked and their code length L, the question's
+  // code length, and log_hypotheses = log_share + log_question: the
+  // interval's level is delta * exp(-log_hypotheses).
   uint64_t answer_index = 0;
   double log_share = 0;
   uint64_t reveals_before = 0;
   double log_transcript = 0;
+  double log_question = 0;  // the question's code length Q_j (accounting.h)
   double log_hypotheses = 0;
   std::optional<int64_t> repeat_of;  // the eval entry answered from; none: a reveal
   bool contaminated = false;

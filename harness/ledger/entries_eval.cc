@@ -35,6 +35,7 @@ json AnswerRecordJson(const EvalAnswerRecord& a) {
             {"log_share", a.log_share},
             {"reveals_before", a.reveals_before},
             {"log_transcript", a.log_transcript},
+            {"log_question", a.log_question},
             {"log_hypotheses", a.log_hypotheses},
             {"repeat_of", a.repeat_of ? json(*a.repeat_of) : json(nullptr)},
             {"contaminated", a.contaminated},
@@ -79,6 +80,7 @@ EvalAnswerRecord ReadAnswer(BodyReader& r, size_t i) {
   a.log_share = r.Required<double>(at("log_share"));
   a.reveals_before = r.Required<uint64_t>(at("reveals_before"));
   a.log_transcript = r.Required<double>(at("log_transcript"));
+  a.log_question = r.Required<double>(at("log_question"));
   a.log_hypotheses = r.Required<double>(at("log_hypotheses"));
   a.repeat_of = r.Nullable<int64_t>(at("repeat_of"), /*required=*/true);
   a.contaminated = r.Required<bool>(at("contaminated"));
@@ -236,7 +238,7 @@ auto Tie(const EvalAnswerRecord& a) {
   return std::tie(a.model, a.kind, a.model_digest, a.metric, a.method, a.delta, a.n, a.estimate,
                   a.lower, a.upper, a.step, a.range_lo, a.range_hi, a.range_source, a.outside_range,
                   a.queries, a.answer_index, a.log_share, a.reveals_before, a.log_transcript,
-                  a.log_hypotheses, a.repeat_of,
+                  a.log_question, a.log_hypotheses, a.repeat_of,
                   a.contaminated, a.taints, a.mode, a.improved, a.leader, a.ladder_step, a.tau,
                   a.code_length, a.ladder_max_submissions);
 }

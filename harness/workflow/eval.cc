@@ -164,7 +164,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
   UNSEEN_ASSIGN_OR_RETURN(std::unique_ptr<EvalRun> run, OpenRun(req));
   // What is asked, and whether the guard refuses it; nothing is revealed yet.
   UNSEEN_RETURN_IF_ERROR(PlanQueries(run.get()));
-  PlaceAnswers(run.get());
+  UNSEEN_RETURN_IF_ERROR(PlaceAnswers(run.get()));
   UNSEEN_RETURN_IF_ERROR(RefuseTainted(run.get()));
   UNSEEN_RETURN_IF_ERROR(RefuseOverBudget(run.get()));
   UNSEEN_RETURN_IF_ERROR(ReplayLadder(run.get()));

@@ -64,12 +64,14 @@ struct EvalAnswer {
   uint64_t queries = 0;  // holdout queries the ledger has answered, this call's included
   // The accounting (harness/bounds/accounting.h, docs/bounds.md): the
   // answer's number j, ln(delta / delta_j), the answers shown before the
-  // question was asked and their code length L; the interval holds at level
-  // delta * exp(-log_hypotheses), log_hypotheses = log_share + log_transcript.
+  // question was asked and their code length L, the question's code length;
+  // the interval holds at level delta * exp(-log_hypotheses), with
+  // log_hypotheses = log_share + log_question.
   uint64_t answer_index = 0;
   double log_share = 0;
   uint64_t reveals_before = 0;
   double log_transcript = 0;
+  double log_question = 0;  // the question's code length
   double log_hypotheses = 0;
   double range_lo = 0, range_hi = 1;   // the metric's range
   std::string range_source;

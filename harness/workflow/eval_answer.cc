@@ -40,6 +40,7 @@ EvalAnswerRecord RecordOf(const EvalAnswer& a, const Shown& s) {
   r.log_share = a.log_share;
   r.reveals_before = a.reveals_before;
   r.log_transcript = a.log_transcript;
+  r.log_question = a.log_question;
   r.log_hypotheses = a.log_hypotheses;
   if (a.repeated) r.repeat_of = a.repeat_of;
   r.contaminated = a.contaminated;
@@ -81,6 +82,7 @@ void FillAnswer(EvalRun* run, const Query& q, const Shown& s) {
   a.log_share = s.log_share;
   a.reveals_before = s.reveals_before;
   a.log_transcript = s.log_transcript;
+  a.log_question = s.log_question;
   a.log_hypotheses = s.log_hypotheses;
   a.mode = s.mode;
   a.improved = s.improved;
@@ -104,6 +106,7 @@ Shown NewShown(const EvalRun& run, const Query& q, const MetricSample& sample) {
   s.log_share = q.log_share;
   s.reveals_before = run.reveals_before;
   s.log_transcript = run.log_transcript;
+  s.log_question = q.log_question;
   s.log_hypotheses = q.log_hypotheses;
   return s;
 }
@@ -126,6 +129,7 @@ Shown RepeatShown(const PastAnswer& p) {
   s.log_share = b.log_share;
   s.reveals_before = b.reveals_before;
   s.log_transcript = b.log_transcript;
+  s.log_question = b.log_question;
   s.log_hypotheses = b.log_hypotheses;
   s.mode = b.mode;
   s.improved = b.improved;
@@ -167,8 +171,9 @@ std::string Guarantee(const EvalRun& run, const Query& q) {
          "This is answer " +
          std::to_string(q.answer_index) + ", given delta_j = delta * exp(-" +
          std::to_string(q.log_share) + ") and asked after " + std::to_string(run.reveals_before) +
-         " answers of " + std::to_string(run.log_transcript) +
-         " nats: its level is delta * exp(-" + std::to_string(q.log_hypotheses) + "). ";
+         " answers of " + std::to_string(run.log_transcript) + " nats, its question coded in " +
+         std::to_string(q.log_question) + " nats: its level is delta * exp(-" +
+         std::to_string(q.log_hypotheses) + "). ";
 }
 
 // A plain answer: the estimate and interval on the reveal grid.

@@ -209,14 +209,56 @@ Status PlanQueries(EvalRun* run) {
   return Status::OK();
 }
 
-void PlaceAnswers(EvalRun* run) {
+namespace {
+
+// The kinds of default question (a metric and a bound method that apply to
+// the task, the default range and probability floor, a plain answer).
+uint64_t DefaultQuestionKinds(const LedgerState& st) {
+  const bool classification = st.source.task == TaskKind::kClassification;
+  const LearnTask task = classification ? LearnTask::kClassification : LearnTask::kRegression;
+  const int classes = static_cast<int>(st.source.target.classes.size());
+  uint64_t kinds = 0;
+  for (Metric m : {Metric::kErrorRate, Metric::kAccuracy, Metric::kBalancedAccuracy,
+                   Metric::kLogLoss, Metric::kBrier, Metric::kAuc, Metric::kMse, Metric::kMae}) {
+    if (!CheckMetric(m, task, classes).ok()) continue;
+    for (BoundMethod b : {BoundMethod::kHoeffding, BoundMethod::kClopperPearson,
+                          BoundMethod::kBernstein, BoundMethod::kMcDiarmid}) {
+      kinds += CheckBoundMethod(m, b).ok() ? 1 : 0;
+    }
+  }
+  return kinds;
+}
+
+// A question fixed before the ledger's first answer: a model frozen then,
+// asked a default question.
+bool AskedInAdvance(const EvalRun& run, const Query& q) {
+  const EvalRequest& req = *run.req;
+  return q.kind == "frozen" && q.frozen_at < run.first_answer_entry && !req.range &&
+         req.prob_floor == EvalRequest{}.prob_floor && !req.ladder && !req.thresholdout;
+}
+
+}  // namespace
+
+Status PlaceAnswers(EvalRun* run) {
   run->delta = run->st.seal->budget_delta;
   run->reveals_before = 0;
   run->log_transcript = 0;
+  run->first_answer_entry = 0;
   for (const PastAnswer& p : run->past) {
     if (!p.reveal()) continue;
+    if (run->reveals_before == 0) run->first_answer_entry = p.entry;
     ++run->reveals_before;
     run->log_transcript += *p.record.code_length;
+  }
+  if (run->reveals_before > 0) {
+    UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListModels(*run->ledger));
+    uint64_t advance = 0;
+    for (const ModelSummary& m : models) advance += m.fit_entry < run->first_answer_entry ? 1 : 0;
+    const uint64_t kinds = DefaultQuestionKinds(run->st);
+    if (advance > 0 && kinds > 0) {
+      run->log_advance_choices =
+          std::log(static_cast<double>(advance)) + std::log(static_cast<double>(kinds));
+    }
   }
   // Answers are numbered by the ledger's count of holdout queries, which
   // every new answer raises by one.
@@ -226,9 +268,13 @@ void PlaceAnswers(EvalRun* run) {
     if (q.repeat) continue;
     q.answer_index = next++;
     q.log_share = LogDeltaShare(q.answer_index, run->st.seal->sealed_budget_queries);
-    q.log_hypotheses = q.log_share + run->log_transcript;
+    q.log_question = LogQuestionCode(
+        run->reveals_before, run->log_transcript,
+        AskedInAdvance(*run, q) ? run->log_advance_choices : std::nullopt);
+    q.log_hypotheses = q.log_share + q.log_question;
     run->log_h = std::fmax(run->log_h, q.log_hypotheses);
   }
+  return Status::OK();
 }
 
 }  // namespace unseen::internal

@@ -43,9 +43,10 @@ struct Query {
   std::vector<std::string> taints;
   const PastAnswer* repeat = nullptr;  // the earlier answer to the same question
   // New questions only (harness/bounds/accounting.h): the answer's number
-  // j, ln(delta / delta_j), and log_share + the call's log_transcript.
+  // j, ln(delta / delta_j), the question's code length, and their sum.
   uint64_t answer_index = 0;
   double log_share = 0;
+  double log_question = 0;
   double log_hypotheses = 0;
 };
 
@@ -90,7 +91,7 @@ struct Shown {
   std::string range_source;
   bool outside_range = false;
   uint64_t answer_index = 0, reveals_before = 0;
-  double log_share = 0, log_transcript = 0, log_hypotheses = 0;
+  double log_share = 0, log_transcript = 0, log_question = 0, log_hypotheses = 0;
   std::string mode = "plain";
   bool improved = false;
   std::string leader;
@@ -119,6 +120,10 @@ struct EvalRun {
   uint64_t reveals_before = 0;  // answers shown before this call
   double log_transcript = 0;    // their code length L, in nats
   double log_h = 0;             // the largest log_hypotheses of this call's new questions
+  // ln(models frozen before the ledger's first answer x kinds of default
+  // question): absent before the first answer.
+  std::optional<double> log_advance_choices;
+  int64_t first_answer_entry = 0;  // the eval entry of the ledger's first answer
   std::optional<Key> key;
   std::unique_ptr<HoldoutGuard> guard;
   std::optional<AdmittedData> train_rows;  // Thresholdout: loaded on first use
@@ -141,7 +146,7 @@ Status PlanQueries(EvalRun* run);
 // Numbers this call's new questions and gives each its level
 // (harness/bounds/accounting.h): the code length of every answer shown
 // before this call, and each answer's share of delta.
-void PlaceAnswers(EvalRun* run);
+Status PlaceAnswers(EvalRun* run);
 
 // --- eval.cc: refusals (each rolls back and appends a `refusal` entry) ---
 

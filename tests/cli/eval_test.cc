@@ -211,23 +211,42 @@ TEST_F(EvalTest, RepeatedQueryIsAnsweredFromTheLedgerWithoutBudgetOrKey) {
 }
 
 TEST_F(EvalTest, QuestionAskedAfterARevealIsChargedForIt) {
-  // Both models are frozen before any answer; the second is asked after one.
+  // alpha and gamma are frozen before any answer; gamma and delta are asked
+  // after one, delta frozen after it too.
   Fit("alpha");
   Fit("gamma", "[learner]\nkind = \"logistic\"\nl2 = 5.0\n");
   json first = json::parse(Eval("alpha").out)[0];
   const double n = first["n"];
   EXPECT_EQ(first["reveals_before"], 0);
   EXPECT_NEAR(first["log_transcript"].get<double>(), 0, 1e-12);
+  EXPECT_NEAR(first["log_question"].get<double>(), 0, 1e-12);
   json second = json::parse(Eval("gamma").out)[0];
   EXPECT_EQ(second["reveals_before"], 1);
   EXPECT_EQ(second["answer_index"], 2);
   // The first answer (Clopper–Pearson on n = 100 rows) is a function of its
-  // shown rate: one of n + 1 values. gamma's question could depend on it,
-  // whenever gamma was frozen.
-  EXPECT_NEAR(second["log_transcript"].get<double>(), std::log(n + 1), 1e-9);
-  const double share = std::log(2 / (1.0 / 6 + 0.01));
-  EXPECT_NEAR(second["log_hypotheses"].get<double>(), share + std::log(n + 1), 1e-9);
+  // shown rate: one of n + 1 values.
+  const double transcript = std::log(n + 1);
+  EXPECT_NEAR(second["log_transcript"].get<double>(), transcript, 1e-9);
+  // gamma's question is either coded by that transcript or, since gamma was
+  // frozen before the first answer, as one of 2 models x 13 default
+  // questions of a two-class task (error_rate and accuracy by 3 methods,
+  // balanced_accuracy, log_loss and brier by 2, auc by 1); one bit picks the code.
+  const double advance = std::log(2.0 * 13);
+  ASSERT_LT(advance, transcript);
+  EXPECT_NEAR(second["log_question"].get<double>(), std::log(2.0) + advance, 1e-9);
+  const double share2 = std::log(2 / (1.0 / 6 + 0.01));
+  EXPECT_NEAR(second["log_hypotheses"].get<double>(), share2 + std::log(2.0) + advance, 1e-9);
   EXPECT_EQ(second["queries"], 2);
+  // delta, frozen after the first answer, can only be coded by the transcript.
+  Fit("delta", "[learner]\nkind = \"logistic\"\nl2 = 9.0\n");
+  json third = json::parse(Eval("delta").out)[0];
+  EXPECT_NEAR(third["log_transcript"].get<double>(), 2 * transcript, 1e-9);
+  EXPECT_NEAR(third["log_question"].get<double>(), std::log(2.0) + 2 * transcript, 1e-9);
+  // So can gamma asked with a declared range or another default: a question
+  // not fixed in advance.
+  json other = json::parse(Eval("gamma --metric brier --prob-floor 0.01").out)[0];
+  EXPECT_NEAR(other["log_question"].get<double>(),
+              std::log(2.0) + other["log_transcript"].get<double>(), 1e-9);
   // Asking alpha again returns its first interval unchanged: it was final.
   json again = json::parse(Eval("alpha").out)[0];
   EXPECT_EQ(again["repeated"], true);
@@ -430,6 +449,45 @@ TEST_F(EvalTest, LadderReleasesANewValueOnlyWhenTheBoardMoves) {
   EXPECT_EQ(Eval("--ladder alpha --metric accuracy").exit_code, 2);  // not a loss
 }
 
+TEST_F(EvalTest, LadderAfterPlainAnswersIsChargedForThem) {
+  // A plain answer first; the Ladder's first answer is then charged for it
+  // (one answer of n + 1 values), and its interval is Hoeffding at that level.
+  Fit("alpha");
+  Fit("weak", "[learner]\nkind = \"knn\"\nk = 1\n");
+  json plain = json::parse(Eval("weak").out)[0];
+  const double n = plain["n"];
+  json l = json::parse(Eval("--ladder --ladder-step 0.05 alpha").out)[0];
+  EXPECT_EQ(l["reveals_before"], 1);
+  EXPECT_NEAR(l["log_transcript"].get<double>(), std::log(n + 1), 1e-9);
+  // A Ladder question is never a default question fixed in advance.
+  EXPECT_NEAR(l["log_question"].get<double>(), std::log(2.0) + std::log(n + 1), 1e-9);
+  const double level = std::log(2 / (1.0 / 6 + 0.01)) + std::log(2.0) + std::log(n + 1);
+  EXPECT_NEAR(l["log_hypotheses"].get<double>(), level, 1e-9);
+  const double eps = std::sqrt((std::log(2.0) + level - std::log(0.05)) / (2 * n));
+  EXPECT_NEAR(l["upper"].get<double>(), std::fmin(1.0, l["estimate"].get<double>() + 0.025 + eps),
+              1e-9);
+  EXPECT_NEAR(l["lower"].get<double>(), std::fmax(0.0, l["estimate"].get<double>() - 0.025 - eps),
+              1e-9);
+  // A later plain question pays for the Ladder answer's code: a move costs
+  // ln(k G) with k = the budget (100) and G = floor(1 / 0.05) + 2 = 22.
+  json after = json::parse(Eval("alpha --metric accuracy").out)[0];
+  EXPECT_NEAR(after["log_transcript"].get<double>(), std::log(n + 1) + std::log(100.0 * 22), 1e-9);
+}
+
+TEST_F(EvalTest, DeltaIsTheLedgersAndCannotBeChangedPerCall) {
+  Fit("alpha");
+  const std::string before = ReadFile(dir_.File("l"));
+  RunResult r = Eval("--delta 0.2 alpha");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.err.find("--delta 0.200000: every answer of this ledger shares delta 0.050000"),
+            std::string::npos)
+      << r.err;
+  EXPECT_EQ(ReadFile(dir_.File("l")), before);
+  RunResult same = Eval("--delta 0.05 alpha");
+  ASSERT_EQ(same.exit_code, 0) << same.err;
+  EXPECT_EQ(json::parse(same.out)[0]["delta"], 0.05);
+}
+
 TEST(HalfWidthBudgetTest, AQueryWhoseIntervalWouldBeTooWideIsRefused) {
   TempDir dir;
   auto Q = [&](const std::string& f) { return ShellQuote(dir.File(f)); };
@@ -524,6 +582,26 @@ TEST(ThresholdoutEvalTest, AnswersWithinTauAndKeepsItsStateSealed) {
                                " --thresholdout --thresholdout-budget 1 beta");
   ASSERT_EQ(second.exit_code, 0) << second.err;
   EXPECT_EQ(json::parse(second.out)[0]["tau"], tau);
+  // A call the run's overfitting budget (1 left at most) cannot cover is
+  // refused before any noise is drawn: nothing to retry for fresh noise.
+  const size_t evals_before = [&] {
+    size_t c = 0;
+    for (const json& e : json::parse(RunUnseen("history --json --ledger " + Q("l")).out)) {
+      c += e["kind"] == "eval";
+    }
+    return c;
+  }();
+  RunResult both = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                             " --thresholdout --thresholdout-budget 1 alpha beta --metric brier");
+  EXPECT_EQ(both.exit_code, 1) << both.err;
+  EXPECT_NE(both.err.find("can answer at most"), std::string::npos) << both.err;
+  size_t evals_after = 0, refusals = 0;
+  for (const json& e : json::parse(RunUnseen("history --json --ledger " + Q("l")).out)) {
+    evals_after += e["kind"] == "eval";
+    refusals += e["kind"] == "refusal";
+  }
+  EXPECT_EQ(evals_after, evals_before);
+  EXPECT_EQ(refusals, 1u);
   // The plain answer on the same holdout: Thresholdout's answer is within tau
   // (plus half a grid step) of it here.
   json plain = json::parse(

@@ -255,6 +255,7 @@ EvalAnswerRecord SampleAnswer() {
   a.log_share = 1.0;
   a.reveals_before = 1;
   a.log_transcript = 0.5;
+  a.log_question = 0.25;
   a.log_hypotheses = 1.5;
   a.contaminated = true;
   a.taints = {"it peeked"};
@@ -502,8 +503,8 @@ TEST(EntriesTest, EvalFieldsArePinned) {
   const std::string answer =
       R"("answer_index":3,"code_length":4.5,"contaminated":true,"delta":0.05,)"
       R"("estimate":0.5,"improved":true,"kind":"frozen","ladder_max_submissions":100,)"
-      R"("ladder_step":0.01,"leader":"m1","log_hypotheses":1.5,"log_share":1.0,)"
-      R"("log_transcript":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
+      R"("ladder_step":0.01,"leader":"m1","log_hypotheses":1.5,"log_question":0.25,)"
+      R"("log_share":1.0,"log_transcript":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
       R"("model":"m1",)"
       R"("model_digest":"8181818181818181818181818181818181818181818181818181818181818181",)"
       R"("n":2,"outside_range":true,"queries":3,"range":[0.0,1.0],"range_source":"metric",)"
@@ -512,7 +513,7 @@ TEST(EntriesTest, EvalFieldsArePinned) {
   const std::string repeat =
       R"("answer_index":3,"contaminated":true,"delta":0.05,"estimate":0.5,)"
       R"("improved":true,"kind":"frozen","ladder_step":0.01,"leader":"m1","log_hypotheses":1.5,)"
-      R"("log_share":1.0,)"
+      R"("log_question":0.25,"log_share":1.0,)"
       R"("log_transcript":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
       R"("model":"m1",)"
       R"("model_digest":"8181818181818181818181818181818181818181818181818181818181818181",)"
