@@ -266,15 +266,15 @@ Result<Shown> ThresholdoutShown(EvalRun* run, const Query& q, const MetricSample
   s.upper = std::fmin(sample.range_hi, s.estimate + half);
   s.assumptions =
       "Thresholdout (Dwork et al. 2015, Theorem 25): this run began at answer " +
-      std::to_string(t.run_start) + " with beta = delta_j * exp(-L) of that answer (" +
-      std::to_string(t.params.beta) + "); with probability at least 1 - beta every answer the " +
-      "run gives before its overfitting budget (B = " + std::to_string(t.params.budget) +
-      ") is spent is within tau = " + std::to_string(t.params.tau) +
-      " (on the [0, 1] scale of the metric's range, plus half a grid step) of the true value, "
-      "over its m = " +
-      std::to_string(t.params.m) +
-      " queries from any adaptive analyst; the holdout rows are an independent sample of the "
-      "population the model will meet, and no bound corrects a sampling bias.";
+      std::to_string(t.run_start) + " with beta = delta_j * exp(-Q_j) of that answer (" +
+      std::to_string(t.params.beta) + "); with probability at least 1 - beta each of its m = " +
+      std::to_string(t.params.m) + " answers is within tau = " + std::to_string(t.params.tau) +
+      " of the true value (on the [0, 1] scale of the metric's range, plus half a grid step), "
+      "for any adaptive analyst, unless B = " +
+      std::to_string(t.params.budget) +
+      " or more of the queries so far overfit (their true loss differs from their training loss "
+      "by more than tau/2), which the tool cannot check; the holdout rows are an independent "
+      "sample of the population the model will meet, and no bound corrects a sampling bias.";
   s.code_length = ThresholdoutAnswerCodeLength(answer.used_holdout, t.params.m,
                                                std::log(static_cast<double>(kRevealGridPoints)));
   return s;

@@ -11,6 +11,7 @@
 #include <cstdio>
 #include <vector>
 
+#include "harness/bounds/bounds.h"
 #include "harness/bounds/metric_bound.h"
 #include "harness/sampling/random.h"
 
@@ -59,6 +60,42 @@ TEST(AccountingTest, LadderAndThresholdoutCodesMeetKraftsInequality) {
   // A thousand "no change" answers of a ladder fixed for k = 1000 cost about one nat.
   EXPECT_NEAR(1000 * LadderAnswerCodeLength(false, 1000, 11), 1.0005, 1e-3);
   EXPECT_NEAR(LadderAnswerCodeLength(true, 1000, 11), std::log(11000.0), 1e-12);
+}
+
+MetricSample ErrorSample(const std::vector<int>& wrong);
+
+TEST(AccountingTest, WorkedExample) {
+  // docs/bounds.md, "Worked example": B = 100, delta = 0.05, K = 13, n = 2000.
+  const double r = std::log(1001.0);
+  EXPECT_NEAR(LogDeltaShare(4, 100), 3.5066, 5e-5);
+  EXPECT_NEAR(LogQuestionCode(0, 0, std::log(65.0)), 0, 1e-12);
+  const double e = LogDeltaShare(5, 100) + LogQuestionCode(4, 4 * r, std::log(5.0 * 13));
+  const double f = LogDeltaShare(6, 100) + LogQuestionCode(5, 5 * r, std::nullopt);
+  EXPECT_NEAR(LogQuestionCode(4, 4 * r, std::log(5.0 * 13)), 4.8675, 5e-5);
+  EXPECT_NEAR(e, 8.6995, 5e-5);
+  EXPECT_NEAR(LogQuestionCode(5, 5 * r, std::nullopt), 35.2369, 5e-5);
+  EXPECT_NEAR(f, 39.3171, 5e-5);
+  std::vector<int> wrong(2000, 0);
+  for (int i = 0; i < 173; ++i) wrong[static_cast<size_t>(i)] = 1;
+  const MetricSample s = ErrorSample(wrong);
+  // 173/2000 = 0.0865 lies just below the midpoint in binary64: shown as
+  // 0.086, like 171/2000 (0.0855, just above its midpoint) and 172/2000.
+  // Intervals computed with scipy 1.10.1 (beta.ppf at k = 171, beta.isf at
+  // k = 173), rounded outwards to 0.001.
+  const struct {
+    double level, lower, upper;
+  } want[] = {{LogDeltaShare(1, 100), 0.070, 0.104}, {e, 0.060, 0.118}, {f, 0.040, 0.154}};
+  for (const auto& w : want) {
+    auto shown = RevealAnswer(s, BoundMethod::kClopperPearson, 0.05, w.level);
+    ASSERT_TRUE(shown.ok());
+    EXPECT_NEAR(shown->estimate, 0.086, 1e-12);
+    EXPECT_NEAR(shown->lower, w.lower, 1e-9) << w.level;
+    EXPECT_NEAR(shown->upper, w.upper, 1e-9) << w.level;
+    EXPECT_NEAR(shown->log_values, r, 1e-12);
+  }
+  auto size = HoeffdingSampleSize(0.05, 0.05, f, 1);
+  ASSERT_TRUE(size.ok());
+  EXPECT_EQ(*size, 8602u);
 }
 
 MetricSample ErrorSample(const std::vector<int>& wrong) {
