@@ -43,7 +43,7 @@ head=$("$unseen" head --ledger "$demo/crates.ledger")
 # A predictor outside the tool, frozen after three reveals: its interval pays for them.
 "$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" --name always-pass \
   --command "sh examples/always_pass.sh"
-"$unseen" bound --n 400 --errors 37 --models 4 --reveals 0,0,1,3
+"$unseen" bound --n 400 --errors 37 --reveals 3 --advance 52
 "$unseen" models --ledger "$demo/crates.ledger"
 "$unseen" verify --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key"
 "$unseen" history --ledger "$demo/crates.ledger"

@@ -29,15 +29,22 @@ Runner SetupBound(CLI::App& app) {
   errors->excludes(mean);
   cmd->add_option("--variance", opt->req.variance,
                   "Unbiased sample variance of the losses (bernstein)");
-  cmd->add_option("--models", opt->req.models, "Models compared (hypotheses fixed in advance)")
+  cmd->add_option("--models", opt->req.models,
+                  "Without a ledger: questions compared, fixed in advance (ln H = ln M)")
+      ->capture_default_str();
+  cmd->add_option("--answer", opt->req.answer,
+                  "As a ledger's answer: its number j (default: reveals + 1)");
+  cmd->add_option("--budget", opt->req.budget, "As a ledger's answer: the budget sealed")
       ->capture_default_str();
   cmd->add_option("--reveals", opt->req.reveals,
-                  "Per model, the answers revealed before it was frozen (comma-separated); missing "
-                  "models count 0")
-      ->delimiter(',');
-  cmd->add_option("--resolution-values", opt->req.resolution_values,
-                  "How many different values one reveal could show")
+                  "As a ledger's answer: answers shown before the question was asked")
       ->capture_default_str();
+  cmd->add_option("--resolution-values", opt->req.resolution_values,
+                  "How many different values one answer could show")
+      ->capture_default_str();
+  cmd->add_option("--advance", opt->req.advance,
+                  "As a ledger's answer: the questions fixed before the first answer, when this "
+                  "question is one of them");
   cmd->add_option("--delta", opt->req.delta, "Overall failure probability")->capture_default_str();
   cmd->add_option("--method", opt->req.method, "hoeffding, clopper-pearson or bernstein");
   cmd->add_option("--range", opt->req.range, "Loss range LO:HI")->capture_default_str();
@@ -55,16 +62,15 @@ Runner SetupBound(CLI::App& app) {
                                         {"method", b->method},
                                         {"delta", opt->req.delta},
                                         {"n", opt->req.n},
-                                        {"queries", opt->req.models},
+                                        {"queries", opt->req.answer.value_or(opt->req.models)},
                                         {"log_hypotheses", r.log_hypotheses},
                                         {"assumptions", b->assumptions}}
                              .dump());
       return Status::OK();
     }
     fmt::print(
-        "estimate {:.6g}, interval [{:.6g}, {:.6g}] by {} at delta {} over {} models (ln H = "
-        "{:.6g})\n",
-        b->estimate, b->lower, b->upper, b->method, opt->req.delta, opt->req.models, r.log_hypotheses);
+        "estimate {:.6g}, interval [{:.6g}, {:.6g}] by {} at delta {} (level delta * exp(-{:.6g}))\n",
+        b->estimate, b->lower, b->upper, b->method, opt->req.delta, r.log_hypotheses);
     fmt::print("{}\n", b->assumptions);
     return Status::OK();
   };

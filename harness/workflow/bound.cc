@@ -2,7 +2,9 @@
 
 #include <stdexcept>
 
-#include "harness/bounds/adaptivity.h"
+#include <cmath>
+
+#include "harness/bounds/accounting.h"
 
 namespace unseen {
 
@@ -15,11 +17,16 @@ Status CheckCounts(const BoundCalcRequest& req) {
   }
   if (req.n == 0) return Status::InvalidArgument("--n: expected at least 1 row");
   if (req.models == 0) return Status::InvalidArgument("--models: expected at least 1");
-  if (req.reveals.size() > req.models) {
-    return Status::InvalidArgument("--reveals: " + std::to_string(req.reveals.size()) +
-                                   " values for " + std::to_string(req.models) +
-                                   " models; expected at most one per model");
+  const bool ledger = req.answer || req.reveals > 0 || req.advance;
+  if (ledger && req.models != 1) {
+    return Status::InvalidArgument(
+        "--models counts questions compared without a ledger; with --answer, --reveals or "
+        "--advance, give the questions fixed in advance as --advance");
   }
+  if (req.answer && *req.answer == 0) return Status::InvalidArgument("--answer: expected j >= 1");
+  if (req.budget == 0) return Status::InvalidArgument("--budget: expected at least 1");
+  if (req.advance && *req.advance == 0)
+    return Status::InvalidArgument("--advance: expected at least 1");
   if (req.resolution_values == 0)
     return Status::InvalidArgument("--resolution-values: expected at least 1");
   if (req.errors && *req.errors > req.n)
@@ -72,9 +79,16 @@ Result<BoundCalcReport> CalculateBound(const BoundCalcRequest& req) {
     r.mean = *req.mean;
   }
   if (req.variance) r.variance = *req.variance;
-  std::vector<uint64_t> reveals = req.reveals;
-  reveals.resize(req.models, 0);
-  r.log_hypotheses = LogHypotheses(reveals, req.resolution_values);
+  if (req.answer || req.reveals > 0 || req.advance) {
+    const uint64_t j = req.answer.value_or(req.reveals + 1);
+    const double transcript =
+        static_cast<double>(req.reveals) * std::log(static_cast<double>(req.resolution_values));
+    std::optional<double> advance;
+    if (req.advance) advance = std::log(static_cast<double>(*req.advance));
+    r.log_hypotheses = LogDeltaShare(j, req.budget) + LogQuestionCode(req.reveals, transcript, advance);
+  } else {
+    r.log_hypotheses = std::log(static_cast<double>(req.models));
+  }
   auto b = ComputeBound(r);
   if (!b.ok()) return Status::InvalidArgument(b.status().message());
   BoundCalcReport out;

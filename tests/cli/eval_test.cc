@@ -738,14 +738,16 @@ TEST(BoundCommandTest, HoeffdingMatchesItsClosedFormAndCountsReveals) {
   json b = json::parse(r.out);
   EXPECT_NEAR(b["lower"].get<double>(), 0.3 - 0.08138118153593646, 1e-12);
   EXPECT_NEAR(b["upper"].get<double>(), 0.3 + 0.08138118153593646, 1e-12);
-  // Two of the five frozen after 1 and 2 reveals of 11 values: H = 3 + 11 + 121.
+  // As answer 6 of a ledger sealed with a budget of 10, asked after 2 answers
+  // of 11 values each: ln(2 / (1/42 + 1/10)) + ln 2 + 2 ln 11.
   json adaptive = json::parse(
-      RunUnseen(
-          "bound --json --n 400 --mean 0.3 --models 5 --reveals 0,0,0,1,2 --resolution-values 11")
+      RunUnseen("bound --json --n 400 --mean 0.3 --answer 6 --budget 10 --reveals 2 "
+                "--resolution-values 11")
           .out);
-  EXPECT_NEAR(adaptive["log_hypotheses"].get<double>(), std::log(135.0), 1e-12);
+  EXPECT_NEAR(adaptive["log_hypotheses"].get<double>(),
+              std::log(2 / (1.0 / 42 + 0.1)) + std::log(2.0) + 2 * std::log(11.0), 1e-12);
   EXPECT_EQ(RunUnseen("bound --n 10 --errors 11").exit_code, 2);
-  EXPECT_EQ(RunUnseen("bound --n 10 --mean 0.5 --models 2 --reveals 1,2,3").exit_code, 2);
+  EXPECT_EQ(RunUnseen("bound --n 10 --mean 0.5 --models 2 --reveals 3").exit_code, 2);
 }
 
 }  // namespace

@@ -29,14 +29,19 @@ TEST(CalculateBoundTest, RevealsWidenTheInterval) {
   BoundCalcRequest once, adaptive;
   once.n = adaptive.n = 400;
   once.errors = adaptive.errors = 37;
-  adaptive.models = 4;
-  adaptive.reveals = {0, 0, 1, 3};
+  adaptive.reveals = 3;  // answer 4 of a budget of 100, after 3 answers of 1001 values
   Result<BoundCalcReport> a = CalculateBound(once);
   Result<BoundCalcReport> b = CalculateBound(adaptive);
   ASSERT_OK(a.status());
   ASSERT_OK(b.status());
-  // ln H = ln(1 + 1 + 1001 + 1001^3) with 1001 values a reveal can show.
-  EXPECT_NEAR(b->log_hypotheses, std::log(2.0 + 1001.0 + std::pow(1001.0, 3)), 1e-9);
+  // ln(2 / (1/20 + 1/100)) + ln 2 + 3 ln 1001 (docs/bounds.md, "One accounting").
+  EXPECT_NEAR(b->log_hypotheses,
+              std::log(2 / (1.0 / 20 + 0.01)) + std::log(2.0) + 3 * std::log(1001.0), 1e-9);
+  // Among 40 questions fixed in advance it costs ln 2 + ln 40 instead.
+  adaptive.advance = 40;
+  Result<BoundCalcReport> c = CalculateBound(adaptive);
+  ASSERT_OK(c.status());
+  EXPECT_NEAR(c->log_hypotheses, std::log(2 / (1.0 / 20 + 0.01)) + std::log(80.0), 1e-9);
   EXPECT_LT(b->bound.lower, a->bound.lower);
   EXPECT_GT(b->bound.upper, a->bound.upper);
 }
@@ -68,9 +73,15 @@ TEST(CalculateBoundTest, BadInputNamesTheOption) {
   req.errors = 11;
   EXPECT_NE(message(req).find("--errors"), std::string::npos);
   req.errors = 3;
-  req.reveals = {1, 2};
-  EXPECT_NE(message(req).find("--reveals"), std::string::npos);
-  req.reveals.clear();
+  req.reveals = 2;
+  req.models = 3;
+  EXPECT_NE(message(req).find("--models counts questions compared without a ledger"),
+            std::string::npos);
+  req.models = 1;
+  req.answer = 0;
+  EXPECT_NE(message(req).find("--answer"), std::string::npos);
+  req.answer.reset();
+  req.reveals = 0;
   req.range = "0-1";
   EXPECT_NE(message(req).find("--range"), std::string::npos);
   req.range = "0:1";
