@@ -40,9 +40,10 @@ head=$("$unseen" head --ledger "$demo/crates.ledger")
 "$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" crates-logistic crates-boosted crates-blend
 "$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" crates-logistic
 "$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" --metric auc crates-logistic
-# A predictor outside the tool, frozen after three reveals: its interval pays for them.
+# A predictor outside the tool, asked after four answers: its interval pays for them.
 "$unseen" eval --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key" --name always-pass \
   --command "sh examples/always_pass.sh"
+# The calculator: answer 4 of a ledger, after 3 answers, its question one of 52 fixed in advance.
 "$unseen" bound --n 400 --errors 37 --reveals 3 --advance 52
 "$unseen" models --ledger "$demo/crates.ledger"
 "$unseen" verify --ledger "$demo/crates.ledger" --key-file "$demo/holdout.key"
