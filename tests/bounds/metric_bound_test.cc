@@ -148,6 +148,64 @@ TEST(RevealTest, CountAnswersTakeAtMostNPlusOneValues) {
   EXPECT_GT(r.lower, b->lower - 0.001);
 }
 
+TEST(RevealTest, ZeroOneAnswerIsAFunctionOfTheShownRateOnLargeHoldouts) {
+  // n = 5000: the counts 1023..1027 give rates 0.2046..0.2054, all shown
+  // as 0.205, and 1022 gives 0.204. Every count in a cell shows the same answer,
+  // the answer takes at most 1001 values, and it holds for each count in it.
+  auto shown = [](uint64_t k, BoundMethod m) {
+    MetricSample s;
+    s.metric = Metric::kErrorRate;
+    s.n = 5000;
+    s.successes = k;
+    s.estimate = s.mean = static_cast<double>(k) / 5000;
+    s.variance = s.mean * (1 - s.mean) * 5000 / 4999;
+    auto r = RevealAnswer(s, m, 0.05, 3.0);
+    EXPECT_TRUE(r.ok());
+    return *r;
+  };
+  for (BoundMethod m :
+       {BoundMethod::kClopperPearson, BoundMethod::kHoeffding, BoundMethod::kBernstein}) {
+    const RevealedAnswer a = shown(1023, m);
+    EXPECT_NEAR(a.estimate, 0.205, 1e-12);
+    EXPECT_NEAR(a.log_values, std::log(1001.0), 1e-12);
+    for (uint64_t k : {1024, 1025, 1026}) {
+      const RevealedAnswer b = shown(k, m);
+      EXPECT_EQ(b.estimate, a.estimate) << k;
+      EXPECT_EQ(b.lower, a.lower) << k;
+      EXPECT_EQ(b.upper, a.upper) << k;
+    }
+    EXPECT_NE(shown(1022, m).lower, a.lower);
+  }
+}
+
+TEST(RevealTest, SideAnswersAreCountedOrNotShown) {
+  // mse shows whether a row was clipped: one more bit.
+  MetricSample mse;
+  mse.metric = Metric::kMse;
+  mse.n = 100;
+  mse.range_hi = 4;
+  mse.estimate = mse.mean = 1.0;
+  mse.variance = 0.5;
+  auto r = RevealAnswer(mse, BoundMethod::kHoeffding, 0.05, 0);
+  ASSERT_TRUE(r.ok());
+  EXPECT_NEAR(r->log_values, std::log(1001.0) + std::log(2.0), 1e-12);
+  // AUC's interval depends on the class counts, which are not public: three
+  // grid values, and the counts appear in no text.
+  MetricSample auc;
+  auc.metric = Metric::kAuc;
+  auc.n = 100;
+  auc.positives = 37;
+  auc.negatives = 63;
+  auc.estimate = 0.8;
+  auto a = RevealAnswer(auc, BoundMethod::kMcDiarmid, 0.05, 0);
+  ASSERT_TRUE(a.ok());
+  EXPECT_NEAR(a->log_values, 3 * std::log(1001.0), 1e-12);
+  auto b = MetricBound(auc, BoundMethod::kMcDiarmid, 0.05, 0);
+  ASSERT_TRUE(b.ok());
+  EXPECT_EQ(b->assumptions.find("37"), std::string::npos) << b->assumptions;
+  EXPECT_EQ(b->assumptions.find("63"), std::string::npos) << b->assumptions;
+}
+
 TEST(AdaptivityWeightsTest, LogSumExpOfWeights) {
   EXPECT_DOUBLE_EQ(LogHypothesesOfWeights({}), 0);
   EXPECT_NEAR(LogHypothesesOfWeights({0, 0, std::log(5.0)}), std::log(7.0), 1e-12);
