@@ -8,6 +8,7 @@
 #include "harness/data/source_scan.h"
 #include "harness/pipeline/pipeline.h"
 #include "harness/evaluate/sealed_holdout.h"
+#include "harness/ledger/sealed_figures.h"
 #include "storage/row_set.h"
 
 namespace unseen {
@@ -34,8 +35,9 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(seal.holdout_set));
   UNSEEN_ASSIGN_OR_RETURN(RowSet holdout, RowSet::Deserialize(set_bytes));
   const std::vector<uint32_t> rows = holdout.ToVector();
-  UNSEEN_ASSIGN_OR_RETURN(std::string row_digests, ledger.GetBlob(st.row_digests));
-  if (row_digests.size() != st.source.rows * sizeof(RowDigest)) return Mismatch("row digest count");
+  UNSEEN_ASSIGN_OR_RETURN(HoldoutDigests held, ReadHoldoutDigests(ledger, st, key));
+  if (held.rows() != rows.size()) return Mismatch("holdout digest count");
+  const std::string& row_digests = held.row;  // the holdout rows', in row order
 
   const SourceInfo& src = st.source;
   CsvOptions options;
@@ -62,7 +64,7 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
     const auto& f = *r.fields;
     if (n >= rows.size()) return Mismatch("more rows than the holdout set");
     RowDigest d = all.Digest(f);
-    if (std::memcmp(d.data(), row_digests.data() + size_t{rows[n]} * d.size(), d.size()) != 0) {
+    if (std::memcmp(d.data(), row_digests.data() + n * d.size(), d.size()) != 0) {
       return Mismatch("row " + std::to_string(rows[n]) + " differs from its row digest");
     }
     ++n;

@@ -36,11 +36,9 @@ Result<std::unique_ptr<Ledger>> CreateLedger(const std::string& path, std::strin
 
 std::string EncodeFields(const SourceBody& b) {
   // SourceInfo's JSON form belongs to harness/data; the entry adds where the
-  // file was found and the digest lists' blobs.
+  // file was found.
   json j = json::parse(SourceToJson(b.source));
   if (b.absolute_path) j["file"]["absolute_path"] = *b.absolute_path;
-  j["row_digests"] = ToHex(b.row_digests);
-  j["content_digests"] = ToHex(b.content_digests);
   return j.dump();
 }
 
@@ -65,7 +63,6 @@ SourceInfo ReadSource(BodyReader& r) {
     c.name = r.Required<std::string>(Path("columns", i, "name"));
     c.type = ColumnTypeFromName(r.Required<std::string>(Path("columns", i, "type")));
     c.role = ColumnRoleFromName(r.Required<std::string>(Path("columns", i, "role")));
-    c.missing = r.Required<uint64_t>(Path("columns", i, "missing"));
     s.columns.push_back(std::move(c));
   }
   Result<TaskKind> task = ParseTaskKind(r.Required<std::string>("task"));
@@ -73,13 +70,6 @@ SourceInfo ReadSource(BodyReader& r) {
     s.task = *task;
   } else {
     r.Fail("'task' should be classification or regression");
-  }
-  if (s.task == TaskKind::kClassification) {
-    s.target.classes = r.Required<std::map<std::string, uint64_t>>("target.classes");
-  } else {
-    s.target.min = r.Required<double>("target.min");
-    s.target.max = r.Required<double>("target.max");
-    s.target.mean = r.Required<double>("target.mean");
   }
   s.row_digest_format = r.Required<int>("row_digest_format");
   s.merkle_root = r.RequiredDigest("merkle_root");
@@ -95,8 +85,6 @@ Status DecodeBody(const Entry& entry, SourceBody* b) {
   if (r.Present("file.absolute_path")) {
     b->absolute_path = r.Required<std::string>("file.absolute_path");
   }
-  b->row_digests = r.RequiredDigest("row_digests");
-  b->content_digests = r.RequiredDigest("content_digests");
   return r.Finish();
 }
 
@@ -149,13 +137,17 @@ std::string EncodeFields(const SealBody& b) {
        {{"rows", h.rows},
         {"row_set", ToHex(h.row_set)},
         {"sealed_rows", ToHex(h.sealed_rows)},
-        {"feature_digests", ToHex(h.feature_digests)},
+        {"sealed_digests", ToHex(h.sealed_digests)},
+        {"sealed_summary", ToHex(h.sealed_summary)},
         {"cipher", h.cipher},
         {"compression", h.compression},
         {"encoding", h.encoding}}},
       {"dev",
        {{"rows", d.rows},
         {"row_set", ToHex(d.row_set)},
+        {"row_digests", ToHex(d.row_digests)},
+        {"content_digests", ToHex(d.content_digests)},
+        {"summary", json::parse(RowsSummaryToJson(d.summary))},
         {"file",
          {{"path", d.file_path}, {"sha256", ToHex(d.file_sha256)}, {"size", d.file_size}}}}},
       {"key", KeyJson(b.key)},
@@ -180,13 +172,24 @@ Status DecodeBody(const Entry& entry, SealBody* b) {
   h.rows = r.Required<uint64_t>("holdout.rows");
   h.row_set = r.RequiredDigest("holdout.row_set");
   h.sealed_rows = r.RequiredDigest("holdout.sealed_rows");
-  h.feature_digests = r.RequiredDigest("holdout.feature_digests");
+  h.sealed_digests = r.RequiredDigest("holdout.sealed_digests");
+  h.sealed_summary = r.RequiredDigest("holdout.sealed_summary");
   h.cipher = r.Optional<std::string>("holdout.cipher");
   h.compression = r.Optional<std::string>("holdout.compression");
   h.encoding = r.Optional<std::string>("holdout.encoding", "csv");
   SealBody::Dev& d = b->dev;
   d.rows = r.Required<uint64_t>("dev.rows");
   d.row_set = r.RequiredDigest("dev.row_set");
+  d.row_digests = r.RequiredDigest("dev.row_digests");
+  d.content_digests = r.RequiredDigest("dev.content_digests");
+  if (std::optional<json> summary = r.Nullable<json>("dev.summary", /*required=*/true)) {
+    Result<RowsSummary> parsed = RowsSummaryFromJson(summary->dump(), /*columns=*/0);
+    if (parsed.ok()) {
+      d.summary = std::move(*parsed);
+    } else {
+      r.Fail("'dev.summary': " + parsed.status().message());
+    }
+  }
   d.file_path = r.Required<std::string>("dev.file.path");
   d.file_sha256 = r.RequiredDigest("dev.file.sha256");
   d.file_size = r.Required<uint64_t>("dev.file.size");
@@ -219,9 +222,7 @@ bool operator==(const GenesisBody& a, const GenesisBody& b) {
 }
 
 bool operator==(const SourceBody& a, const SourceBody& b) {
-  return SourceToJson(a.source) == SourceToJson(b.source) &&
-         std::tie(a.absolute_path, a.row_digests, a.content_digests) ==
-             std::tie(b.absolute_path, b.row_digests, b.content_digests);
+  return SourceToJson(a.source) == SourceToJson(b.source) && a.absolute_path == b.absolute_path;
 }
 
 namespace {
@@ -230,8 +231,9 @@ auto Tie(const SealBody& s) {
   const SealBody::Holdout& h = s.holdout;
   const SealBody::Dev& d = s.dev;
   return std::tie(s.source_entry, s.strategy, s.fraction, s.seed, s.requested_holdout, s.split_note,
-                  h.rows, h.row_set, h.sealed_rows, h.feature_digests, h.cipher, h.compression,
-                  h.encoding, d.rows, d.row_set, d.file_path, d.file_sha256, d.file_size, s.key,
+                  h.rows, h.row_set, h.sealed_rows, h.sealed_digests, h.sealed_summary, h.cipher,
+                  h.compression, h.encoding, d.rows, d.row_set, d.row_digests, d.content_digests,
+                  d.file_path, d.file_sha256, d.file_size, s.key,
                   s.cross_duplicate_holdout_rows, s.cross_duplicate_dev_rows,
                   s.cross_duplicates_moved_to_dev, s.group_violations, s.time_violations,
                   s.budget_queries, s.budget_half_width, s.budget_delta);
@@ -239,6 +241,8 @@ auto Tie(const SealBody& s) {
 
 }  // namespace
 
-bool operator==(const SealBody& a, const SealBody& b) { return Tie(a) == Tie(b); }
+bool operator==(const SealBody& a, const SealBody& b) {
+  return Tie(a) == Tie(b) && RowsSummaryToJson(a.dev.summary) == RowsSummaryToJson(b.dev.summary);
+}
 
 }  // namespace unseen

@@ -90,16 +90,14 @@ SourceBody SampleSource() {
   s.file_size = 1234;
   s.delimiter = ';';
   s.rows = 10;
+  // Format 2: no missing counts and no target figures in the source entry.
   s.columns = {{"id", ColumnType::kCategorical, ColumnRole::kId, 0},
-               {"weight", ColumnType::kNumeric, ColumnRole::kFeature, 2},
+               {"weight", ColumnType::kNumeric, ColumnRole::kFeature, 0},
                {"grade", ColumnType::kCategorical, ColumnRole::kTarget, 0}};
   s.task = TaskKind::kClassification;
-  s.target.classes = {{"A", 6}, {"B", 4}};
-  s.row_digest_format = 1;
+  s.row_digest_format = 2;
   s.merkle_root = D(0x02);
   b.absolute_path = "/data/pears.csv";
-  b.row_digests = D(0x03);
-  b.content_digests = D(0x04);
   return b;
 }
 
@@ -111,8 +109,24 @@ SealBody SampleSeal() {
   b.seed = 3;
   b.requested_holdout = 3;
   b.split_note = "a note";
-  b.holdout = {2, D(0x11), D(0x12), D(0x13), "AES-256-GCM", "zstd", "columns-1"};
-  b.dev = {8, D(0x14), "dev.csv", D(0x15), 456};
+  b.holdout.rows = 2;
+  b.holdout.row_set = D(0x11);
+  b.holdout.sealed_rows = D(0x12);
+  b.holdout.sealed_digests = D(0x13);
+  b.holdout.sealed_summary = D(0x16);
+  b.holdout.cipher = "AES-256-GCM";
+  b.holdout.compression = "zstd";
+  b.holdout.encoding = "columns-1";
+  b.dev.rows = 8;
+  b.dev.row_set = D(0x14);
+  b.dev.file_path = "dev.csv";
+  b.dev.file_sha256 = D(0x15);
+  b.dev.file_size = 456;
+  b.dev.row_digests = D(0x17);
+  b.dev.content_digests = D(0x18);
+  b.dev.summary.rows = 8;
+  b.dev.summary.missing = {0, 2, 0};
+  b.dev.summary.target.classes = {{"A", 5}, {"B", 3}};
   b.key.source = "passphrase";
   b.key.scrypt = {16384, 4, 2};
   b.key.salt_hex = "abcd";
@@ -330,9 +344,10 @@ TEST(EntriesTest, OptionalPiecesRoundTripWhenAbsent) {
   SourceBody source = SampleSource();
   source.absolute_path.reset();
   source.source.task = TaskKind::kRegression;
-  source.source.target = {{}, -1.5, 2.5, 0.25};
   ExpectRoundTrip(source);
   SealBody seal = SampleSeal();
+  seal.dev.summary.task = TaskKind::kRegression;  // a range and mean in place of classes
+  seal.dev.summary.target = {{}, -1.5, 2.5, 0.25};
   seal.key = KeyInfo{};
   seal.key.key_check_hex = "beef";
   seal.group_violations.reset();
@@ -570,22 +585,20 @@ TEST(EntriesTest, MalformedGenesis) {
 }
 
 TEST(EntriesTest, MalformedSource) {
-  ExpectCorrupt(SampleSource(), [](json& j) { j.erase("row_digests"); },
-                "key 'row_digests' is missing");
+  // Format 2 has no digest lists, missing counts or target figures here; the keys it has are
+  // checked as before.
+  ExpectCorrupt(SampleSource(), [](json& j) { j.erase("merkle_root"); },
+                "key 'merkle_root' is missing");
   ExpectCorrupt(SampleSource(), [](json& j) { j["file"].erase("sha256"); },
                 "key 'file.sha256' is missing");
   ExpectCorrupt(SampleSource(), [](json& j) { j["rows"] = "10"; },
                 "'rows' should be an unsigned integer");
-  ExpectCorrupt(SampleSource(), [](json& j) { j["columns"][2]["missing"] = -1; },
-                "'columns.2.missing' should be an unsigned integer");
-  ExpectCorrupt(SampleSource(), [](json& j) { j["target"]["classes"]["A"] = "6"; },
-                "'target.classes' should be an object");
+  ExpectCorrupt(SampleSource(), [](json& j) { j["columns"][2]["role"] = 1; },
+                "'columns.2.role' should be text");
   ExpectCorrupt(SampleSource(), [](json& j) { j["task"] = "ranking"; },
                 "'task' should be classification or regression");
   ExpectCorrupt(SampleSource(), [](json& j) { j["file"]["absolute_path"] = 1; },
                 "'file.absolute_path' should be text");
-  ExpectCorrupt(SampleSource(), [](json& j) { j["content_digests"] = "xyz"; },
-                "'content_digests' is not a SHA-256 digest");
   ExpectCorrupt(SampleSource(), [](json& j) { j["merkle_root"] = std::string(64, 'g'); },
                 "hex digit");
 }
@@ -602,6 +615,16 @@ TEST(EntriesTest, MalformedSeal) {
   ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"] = 8; }, "'dev' should be an object");
   ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"]["file"]["sha256"] = "00"; },
                 "'dev.file.sha256' is not a SHA-256 digest");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"].erase("row_digests"); },
+                "key 'dev.row_digests' is missing");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["holdout"]["sealed_digests"] = "xyz"; },
+                "'holdout.sealed_digests' is not a SHA-256 digest");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["holdout"].erase("sealed_summary"); },
+                "key 'holdout.sealed_summary' is missing");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"].erase("summary"); },
+                "key 'dev.summary' is missing");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"]["summary"]["missing"] = "none"; },
+                "'dev.summary': row summary: 'missing'");
 }
 
 TEST(EntriesTest, SealDefaultsKeepTheirOldValues) {
