@@ -37,7 +37,7 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   const std::vector<uint32_t> rows = holdout.ToVector();
   UNSEEN_ASSIGN_OR_RETURN(HoldoutDigests held, ReadHoldoutDigests(ledger, st, key));
   if (held.rows() != rows.size()) return Mismatch("holdout digest count");
-  const std::string& row_digests = held.row;  // the holdout rows', in row order
+  const std::string& row_digests = held.content;  // the holdout rows' sealed content digests
 
   const SourceInfo& src = st.source;
   CsvOptions options;
@@ -58,14 +58,16 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   const size_t target_col = *src.ColumnOf(ColumnRole::kTarget);
   const std::vector<std::string> labels = Labels(src);
   std::vector<double> target;
-  RowDigester all;
+  std::vector<size_t> id_col;
+  if (auto id = src.ColumnOf(ColumnRole::kId)) id_col.push_back(*id);
+  RowDigester all(id_col);  // the content digest: every column but the id
   uint64_t n = 0;
   UNSEEN_RETURN_IF_ERROR(csv->ForEachRecord([&](const CsvRecord& r) -> Status {
     const auto& f = *r.fields;
     if (n >= rows.size()) return Mismatch("more rows than the holdout set");
     RowDigest d = all.Digest(f);
     if (std::memcmp(d.data(), row_digests.data() + n * d.size(), d.size()) != 0) {
-      return Mismatch("row " + std::to_string(rows[n]) + " differs from its row digest");
+      return Mismatch("row " + std::to_string(rows[n]) + " differs from its content digest");
     }
     ++n;
     for (size_t k = 0; k < feature_cols.size(); ++k) {

@@ -44,12 +44,11 @@ std::string SealedSummaryAad(const std::string& ledger_id, const Digest256& hold
 
 Result<std::string> SealHoldoutDigests(const Key& key, const std::string& aad,
                                        const HoldoutDigests& d) {
-  if (d.row.size() != d.content.size() || d.row.size() != d.feature.size() ||
-      d.row.size() % 16 != 0) {
-    return Status::InvalidArgument("holdout digests: three lists of one 16-byte digest per row "
+  if (d.content.size() != d.feature.size() || d.content.size() % 16 != 0) {
+    return Status::InvalidArgument("holdout digests: two lists of one 16-byte digest per row "
                                    "expected");
   }
-  return Seal(key, aad, d.row + d.content + d.feature);
+  return Seal(key, aad, d.content + d.feature);
 }
 
 Result<std::string> SealSourceSummary(const Key& key, const std::string& aad,
@@ -65,16 +64,15 @@ Result<HoldoutDigests> ReadHoldoutDigests(const Ledger& ledger, const LedgerStat
       Open(ledger, st, key, st.seal->sealed_digests,
            SealedDigestsAad(st.ledger_id, st.seal->holdout_set), "holdout digests"));
   const size_t list = st.seal->holdout_rows * 16;
-  if (plain.size() != 3 * list) {
+  if (plain.size() != 2 * list) {
     return Status::Corruption("entry " + std::to_string(st.seal->entry_seq) +
                               " (seal): the sealed holdout digests hold " +
-                              std::to_string(plain.size()) + " bytes; expected 3 x 16 x " +
+                              std::to_string(plain.size()) + " bytes; expected 2 x 16 x " +
                               std::to_string(st.seal->holdout_rows));
   }
   HoldoutDigests d;
-  d.row = plain.substr(0, list);
-  d.content = plain.substr(list, list);
-  d.feature = plain.substr(2 * list, list);
+  d.content = plain.substr(0, list);
+  d.feature = plain.substr(list, list);
   return d;
 }
 

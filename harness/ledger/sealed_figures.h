@@ -19,19 +19,20 @@
 
 namespace unseen {
 
-// The three digests of each holdout row (harness/data/row_digest.h), 16 bytes a row, in row
-// order. content equals row when the source has no id column.
+// The content and feature digests of each holdout row (harness/data/row_digest.h), 16 bytes a
+// row, in row order. (Without an id column the content digest is the row digest; with one, the
+// key holder recomputes row digests from the decrypted rows when needed, as verify does.)
 struct HoldoutDigests {
-  std::string row, content, feature;
-  size_t rows() const { return row.size() / 16; }
+  std::string content, feature;
+  size_t rows() const { return content.size() / 16; }
 };
 
 // The AADs of the two blobs (docs/sealed-format.md).
 std::string SealedDigestsAad(const std::string& ledger_id, const Digest256& holdout_set);
 std::string SealedSummaryAad(const std::string& ledger_id, const Digest256& holdout_set);
 
-// The sealed blob of `d` (plaintext: row, then content, then feature digests). InvalidArgument
-// if the three lists differ in length; errors of SealedWriter otherwise.
+// The sealed blob of `d` (plaintext: the content digests, then the feature digests).
+// InvalidArgument if the two lists differ in length; errors of SealedWriter otherwise.
 Result<std::string> SealHoldoutDigests(const Key& key, const std::string& aad,
                                        const HoldoutDigests& d);
 // The sealed blob of `s` (plaintext: RowsSummaryToJson).
@@ -40,7 +41,7 @@ Result<std::string> SealSourceSummary(const Key& key, const std::string& aad,
 
 // The holdout rows' digests, opened with `key` (checked by KeyForSeal). FailedPrecondition
 // before the seal; Corruption if the blob is missing, fails authentication or does not hold
-// three lists of one digest per holdout row.
+// two lists of one digest per holdout row.
 Result<HoldoutDigests> ReadHoldoutDigests(const Ledger& ledger, const LedgerState& st,
                                           const Key& key);
 

@@ -498,9 +498,8 @@ Status StoreDigestsAndFigures(SealRun* run) {
   const std::string& id = run->state.ledger_id;
   const Digest256& holdout_set = run->holdout_ref.digest;
   HoldoutDigests held;
-  held.row = Gather(scan.row_digests, split.holdout);
-  held.content = scan.content_digests.empty() ? held.row
-                                              : Gather(scan.content_digests, split.holdout);
+  held.content = Gather(scan.content_digests.empty() ? scan.row_digests : scan.content_digests,
+                        split.holdout);
   held.feature = std::move(run->out.feature_digests);
   run->out.feature_digests = std::string();
   UNSEEN_ASSIGN_OR_RETURN(std::string sealed_digests,

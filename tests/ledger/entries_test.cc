@@ -381,18 +381,16 @@ TEST(EntriesTest, GenesisFieldsArePinned) {
 }
 
 TEST(EntriesTest, SourceFieldsArePinned) {
+  // Format 2: no digest lists, missing counts or target figures.
   const std::string expected =
-      R"({"columns":[{"missing":0,"name":"id","role":"id","type":"categorical"},{"missing":2,)"
-      R"("name":"weight","role":"feature","type":"numeric"},{"missing":0,"name":"grade",)"
-      R"("role":"target","type":"categorical"}],)"
-      R"("content_digests":"0404040404040404040404040404040404040404040404040404040404040404",)"
+      R"({"columns":[{"name":"id","role":"id","type":"categorical"},{"name":"weight",)"
+      R"("role":"feature","type":"numeric"},{"name":"grade","role":"target",)"
+      R"("type":"categorical"}],)"
       R"("delimiter":";","file":{"absolute_path":"/data/pears.csv","path":"pears.csv",)"
       R"("sha256":"0101010101010101010101010101010101010101010101010101010101010101",)"
       R"("size":1234},)"
       R"("merkle_root":"0202020202020202020202020202020202020202020202020202020202020202",)"
-      R"("row_digest_format":1,)"
-      R"("row_digests":"0303030303030303030303030303030303030303030303030303030303030303",)"
-      R"("rows":10,"target":{"classes":{"A":6,"B":4}},"task":"classification"})";
+      R"("row_digest_format":2,"rows":10,"task":"classification"})";
   EXPECT_EQ(EncodeFields(SampleSource()), expected);
 }
 
@@ -400,15 +398,19 @@ TEST(EntriesTest, SealFieldsArePinned) {
   const std::string expected =
       R"({"budget":{"delta":0.01,"half_width":0.1,"queries":50},)"
       R"("cross_duplicates":{"dev_rows":2,"holdout_rows":1,"moved_to_dev":true},)"
-      R"("dev":{"file":{"path":"dev.csv",)"
+      R"("dev":{"content_digests":"1818181818181818181818181818181818181818181818181818181818181818",)"
+      R"("file":{"path":"dev.csv",)"
       R"("sha256":"1515151515151515151515151515151515151515151515151515151515151515",)"
       R"("size":456},)"
+      R"("row_digests":"1717171717171717171717171717171717171717171717171717171717171717",)"
       R"("row_set":"1414141414141414141414141414141414141414141414141414141414141414",)"
-      R"("rows":8},"fraction":0.25,"holdout":{"cipher":"AES-256-GCM","compression":"zstd",)"
+      R"("rows":8,"summary":{"missing":[0,2,0],"rows":8,"target":{"classes":{"A":5,"B":3}}}},)"
+      R"("fraction":0.25,"holdout":{"cipher":"AES-256-GCM","compression":"zstd",)"
       R"("encoding":"columns-1",)"
-      R"("feature_digests":"1313131313131313131313131313131313131313131313131313131313131313",)"
       R"("row_set":"1111111111111111111111111111111111111111111111111111111111111111","rows":2,)"
-      R"("sealed_rows":"1212121212121212121212121212121212121212121212121212121212121212"},)"
+      R"("sealed_digests":"1313131313131313131313131313131313131313131313131313131313131313",)"
+      R"("sealed_rows":"1212121212121212121212121212121212121212121212121212121212121212",)"
+      R"("sealed_summary":"1616161616161616161616161616161616161616161616161616161616161616"},)"
       R"("key":{"key_check":"beef","salt":"abcd","scrypt":{"N":16384,"p":2,"r":4},)"
       R"("source":"passphrase"},"requested_holdout":3,"seed":3,"source_entry":2,)"
       R"("split_note":"a note","strategy":"random","violations":{"group":4,"time":5}})";
