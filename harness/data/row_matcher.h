@@ -85,10 +85,10 @@ struct MatchResult {
 struct MatchTables {
   // 16 bytes for each source row, in row order; only the rows in known_rows are looked up.
   std::string content_digests;
-  // The rows whose content digests are known (ascending); empty: every row.
-  std::vector<uint32_t> known_rows;
   std::string holdout_feature_digests;  // of every holdout row, in row order; may be empty
   RowSet holdout;                       // the holdout's row numbers; empty without the key
+  // The rows whose content digests are known (ascending); empty: every row.
+  std::vector<uint32_t> known_rows;
 };
 
 class RowMatcher {

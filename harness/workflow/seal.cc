@@ -381,12 +381,24 @@ Status ScanRegisteredSource(SealRun* run) {
     if (c.role == ColumnRole::kGroup) options.roles.group = c.name;
     if (c.role == ColumnRole::kTime) options.roles.time = c.name;
   }
-  UNSEEN_ASSIGN_OR_RETURN(run->scan, ScanSource(run->data, options));
-  const SourceInfo& now = run->scan.info;
-  if (now.file_sha256 != src.file_sha256 || now.file_size != src.file_size) {
-    return Status::InvalidArgument(run->data + ": the file's SHA-256 is " + ToHex(now.file_sha256) +
+  auto changed = [&](const Digest256& now) {
+    return Status::InvalidArgument(run->data + ": the file's SHA-256 is " + ToHex(now) +
                                    " but the source registered at init has " +
                                    ToHex(src.file_sha256) + "; expected the same file");
+  };
+  Result<SourceScan> scan = ScanSource(run->data, options);
+  if (!scan.ok()) {
+    // A file that init read whole and that no longer reads is a changed file: say so first.
+    Result<FileDigest> file = Sha256File(run->data);
+    if (file.ok() && (file->sha256 != src.file_sha256 || file->size != src.file_size)) {
+      return changed(file->sha256);
+    }
+    return scan.status();
+  }
+  run->scan = std::move(*scan);
+  const SourceInfo& now = run->scan.info;
+  if (now.file_sha256 != src.file_sha256 || now.file_size != src.file_size) {
+    return changed(now.file_sha256);
   }
   if (now.merkle_root != src.merkle_root || now.rows != src.rows) {
     return Status::Corruption(run->data + ": the file has the registered SHA-256 but its rows' "
