@@ -10,8 +10,10 @@
 #include <gtest/gtest.h>
 
 #include <SQLiteCpp/SQLiteCpp.h>
+#include <sys/stat.h>
 
 #include <cmath>
+#include <cstdio>
 #include <map>
 #include <nlohmann/json.hpp>
 #include <set>
@@ -354,6 +356,43 @@ TEST_F(HoldoutOracleTest, FitAndPredictCannotTellAHoldoutRowFromAnUnseenOne) {
     EXPECT_EQ(p.exit_code, 0) << p.err;
     EXPECT_EQ(History().back()["kind"], "apply");
   }
+}
+
+// A class carried by one row: a seal that would put it in the holdout only is refused (exit 2,
+// nothing written), since the published class list would name a class no dev row has; a seal
+// that keeps it in dev lists it.
+TEST_F(HoldoutOracleTest, ASealThatLeavesAClassInTheHoldoutOnlyIsRefused) {
+  std::string csv = "x,label\n";
+  for (int i = 0; i < 40; ++i) csv += std::to_string(i) + "," + (i % 2 ? "pear" : "apple") + "\n";
+  csv += "40,quince\n";
+  WriteFile(dir_.File("d.csv"), csv);
+  ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
+  ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") + " --target label")
+                .exit_code,
+            0);
+  const std::string fresh = ReadFile(dir_.File("l"));
+  bool refused = false, kept = false;
+  for (int seed = 1; seed <= 40 && !(refused && kept); ++seed) {
+    WriteFile(dir_.File("l"), fresh);
+    std::remove(dir_.File("dev.csv").c_str());
+    RunResult r = RunUnseen("seal --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                            " --fraction 0.5 --seed " + std::to_string(seed) + " --dev-out " +
+                            Q("dev.csv"));
+    if (r.exit_code == 0) {
+      kept = true;
+      EXPECT_EQ(json::parse(r.out)["dev_summary"]["target"]["classes"]["quince"], 1);
+      continue;
+    }
+    refused = true;
+    EXPECT_EQ(r.exit_code, 2) << r.err;
+    EXPECT_NE(r.err.find("class 'quince' (1 rows) would be in the holdout only"),
+              std::string::npos)
+        << r.err;
+    EXPECT_EQ(ReadFile(dir_.File("l")), fresh);
+    struct stat st;
+    EXPECT_NE(::stat(dir_.File("dev.csv").c_str(), &st), 0);
+  }
+  EXPECT_TRUE(refused && kept) << "some seed should put the quince row on each side";
 }
 
 // A ledger that says it is of format 1 (plain per-row digests) is refused by every command with
