@@ -18,8 +18,8 @@ Result<std::string> Open(const Ledger& ledger, const LedgerState& st, const Key&
                          const Digest256& blob_digest, const std::string& aad, const char* what) {
   const std::string where = "entry " + std::to_string(st.seal->entry_seq) + " (seal): ";
   Result<std::string> blob = ledger.GetBlob(blob_digest);
-  if (!blob.ok()) return Status::Corruption(where + "the sealed " + what + ": " +
-                                            blob.status().message());
+  if (!blob.ok())
+    return Status::Corruption(where + "the sealed " + what + ": " + blob.status().message());
   Result<std::string> plain = OpenSealed(key, aad, *blob);
   if (!plain.ok()) {
     if (plain.status().IsWrongKey()) {
@@ -45,8 +45,9 @@ std::string SealedSummaryAad(const std::string& ledger_id, const Digest256& hold
 Result<std::string> SealHoldoutDigests(const Key& key, const std::string& aad,
                                        const HoldoutDigests& d) {
   if (d.content.size() != d.feature.size() || d.content.size() % 16 != 0) {
-    return Status::InvalidArgument("holdout digests: two lists of one 16-byte digest per row "
-                                   "expected");
+    return Status::InvalidArgument(
+        "holdout digests: two lists of one 16-byte digest per row "
+        "expected");
   }
   return Seal(key, aad, d.content + d.feature);
 }
@@ -76,8 +77,7 @@ Result<HoldoutDigests> ReadHoldoutDigests(const Ledger& ledger, const LedgerStat
   return d;
 }
 
-Result<RowsSummary> ReadSourceSummary(const Ledger& ledger, const LedgerState& st,
-                                      const Key& key) {
+Result<RowsSummary> ReadSourceSummary(const Ledger& ledger, const LedgerState& st, const Key& key) {
   if (!st.seal) return Status::FailedPrecondition(ledger.path() + ": the ledger is not sealed yet");
   UNSEEN_ASSIGN_OR_RETURN(
       std::string plain,

@@ -36,8 +36,7 @@ std::string SealedSummaryAad(const std::string& ledger_id, const Digest256& hold
 Result<std::string> SealHoldoutDigests(const Key& key, const std::string& aad,
                                        const HoldoutDigests& d);
 // The sealed blob of `s` (plaintext: RowsSummaryToJson).
-Result<std::string> SealSourceSummary(const Key& key, const std::string& aad,
-                                      const RowsSummary& s);
+Result<std::string> SealSourceSummary(const Key& key, const std::string& aad, const RowsSummary& s);
 
 // The holdout rows' digests, opened with `key` (checked by KeyForSeal). FailedPrecondition
 // before the seal; Corruption if the blob is missing, fails authentication or does not hold

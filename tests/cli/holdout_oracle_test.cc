@@ -7,9 +7,8 @@
 //   - fit refuses a holdout row exactly as it refuses a row never seen; predict applies a model
 //     to either alike;
 //   - a ledger of the old format, whose digests were plain, is refused with a clear error.
-#include <gtest/gtest.h>
-
 #include <SQLiteCpp/SQLiteCpp.h>
+#include <gtest/gtest.h>
 #include <sys/stat.h>
 
 #include <cmath>
@@ -60,7 +59,9 @@ std::vector<Row> Rows(const std::string& csv) {
   return rows;
 }
 
-std::string Key16(const RowDigest& d) { return std::string(reinterpret_cast<const char*>(d.data()), 16); }
+std::string Key16(const RowDigest& d) {
+  return std::string(reinterpret_cast<const char*>(d.data()), 16);
+}
 
 // Every 16 bytes anything in the ledger file could hold a digest as: each window of the raw file,
 // of every blob and of every entry body, and each 16-byte window of every run of hex digits in
@@ -75,7 +76,8 @@ std::unordered_set<std::string> LedgerWindows(const std::string& path) {
   SQLite::Statement blobs(db, "SELECT data FROM blobs");
   while (blobs.executeStep()) {
     const SQLite::Column c = blobs.getColumn(0);
-    add_windows(std::string(static_cast<const char*>(c.getBlob()), static_cast<size_t>(c.getBytes())));
+    add_windows(
+        std::string(static_cast<const char*>(c.getBlob()), static_cast<size_t>(c.getBytes())));
   }
   SQLite::Statement bodies(db, "SELECT body FROM entries");
   while (bodies.executeStep()) {
@@ -151,8 +153,8 @@ TEST_F(HoldoutOracleTest, EnumeratingEveryRowOfALowEntropySourceFindsDevRowsOnly
   RowDigester all, features({3});
   size_t dev_found = 0;
   for (int v = 0; v < 16; ++v) {
-    const Row r = {std::to_string(v % 2), std::to_string((v / 2) % 2),
-                   std::to_string((v / 4) % 2), std::to_string(v / 8)};
+    const Row r = {std::to_string(v % 2), std::to_string((v / 2) % 2), std::to_string((v / 4) % 2),
+                   std::to_string(v / 8)};
     std::vector<std::string_view> f(r.begin(), r.end());
     const bool found = windows.count(Key16(all.Digest(f))) > 0;
     if (holdout_only.count(r)) {
@@ -217,7 +219,10 @@ TEST_F(HoldoutOracleTest, PublishedFiguresAreTheDevRowsAndSourceWideOnesAreSeale
   for (int i = 0; i < 200; ++i) {
     csv += "r" + std::to_string(i) + "," + (i % 7 == 0 ? "NA" : std::to_string(i % 13)) + "," +
            (i % 11 == 0 ? "" : "w" + std::to_string(i % 3)) + "," +
-           std::string(i % 5 == 0 ? "c" : i % 2 ? "a" : "b") + "\n";
+           std::string(i % 5 == 0 ? "c"
+                       : i % 2    ? "a"
+                                  : "b") +
+           "\n";
   }
   InitAndSeal(csv, "--id id", 0.25, 5);
   // Nothing over rows before the seal.
@@ -225,11 +230,14 @@ TEST_F(HoldoutOracleTest, PublishedFiguresAreTheDevRowsAndSourceWideOnesAreSeale
   for (const json& c : init_json_["columns"]) EXPECT_FALSE(c.contains("missing")) << c.dump();
 
   auto figures = [](const std::vector<Row>& rows) {
-    json j = {{"rows", rows.size()}, {"missing", {0, 0, 0, 0}}, {"target", {{"classes", json::object()}}}};
+    json j = {{"rows", rows.size()},
+              {"missing", {0, 0, 0, 0}},
+              {"target", {{"classes", json::object()}}}};
     for (const Row& r : rows) {
       for (size_t c = 0; c < 4; ++c) {
         const std::string cell = c < r.size() ? r[c] : "";
-        if (cell.empty() || cell == "NA" || cell == "NaN") j["missing"][c] = j["missing"][c].get<int>() + 1;
+        if (cell.empty() || cell == "NA" || cell == "NaN")
+          j["missing"][c] = j["missing"][c].get<int>() + 1;
       }
       json& n = j["target"]["classes"][r[3]];
       n = n.is_null() ? 1 : n.get<int>() + 1;
@@ -367,17 +375,17 @@ TEST_F(HoldoutOracleTest, ASealThatLeavesAClassInTheHoldoutOnlyIsRefused) {
   csv += "40,quince\n";
   WriteFile(dir_.File("d.csv"), csv);
   ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
-  ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") + " --target label")
-                .exit_code,
-            0);
+  ASSERT_EQ(
+      RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") + " --target label").exit_code,
+      0);
   const std::string fresh = ReadFile(dir_.File("l"));
   bool refused = false, kept = false;
   for (int seed = 1; seed <= 40 && !(refused && kept); ++seed) {
     WriteFile(dir_.File("l"), fresh);
     std::remove(dir_.File("dev.csv").c_str());
-    RunResult r = RunUnseen("seal --json --ledger " + Q("l") + " --key-file " + Q("k") +
-                            " --fraction 0.5 --seed " + std::to_string(seed) + " --dev-out " +
-                            Q("dev.csv"));
+    RunResult r =
+        RunUnseen("seal --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                  " --fraction 0.5 --seed " + std::to_string(seed) + " --dev-out " + Q("dev.csv"));
     if (r.exit_code == 0) {
       kept = true;
       EXPECT_EQ(json::parse(r.out)["dev_summary"]["target"]["classes"]["quince"], 1);
@@ -385,8 +393,7 @@ TEST_F(HoldoutOracleTest, ASealThatLeavesAClassInTheHoldoutOnlyIsRefused) {
     }
     refused = true;
     EXPECT_EQ(r.exit_code, 2) << r.err;
-    EXPECT_NE(r.err.find("class 'quince' (1 rows) would be in the holdout only"),
-              std::string::npos)
+    EXPECT_NE(r.err.find("class 'quince' (1 rows) would be in the holdout only"), std::string::npos)
         << r.err;
     EXPECT_EQ(ReadFile(dir_.File("l")), fresh);
     struct stat st;
@@ -399,9 +406,9 @@ TEST_F(HoldoutOracleTest, ASealThatLeavesAClassInTheHoldoutOnlyIsRefused) {
 // the format named and what to do; the file is left as it was.
 TEST_F(HoldoutOracleTest, ALedgerOfTheOldFormatIsRefusedWithWhatToDo) {
   WriteFile(dir_.File("d.csv"), "a,label\n1,0\n2,1\n3,0\n4,1\n");
-  ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") + " --target label")
-                .exit_code,
-            0);
+  ASSERT_EQ(
+      RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") + " --target label").exit_code,
+      0);
   {
     SQLite::Database db(dir_.File("l"), SQLite::OPEN_READWRITE);
     db.exec("PRAGMA user_version = 1");

@@ -36,7 +36,8 @@ TEST(RowSummaryTest, ClassCountsAndMissingCellsOfTheListedRowsOnly) {
   EXPECT_EQ(s->missing, (std::vector<uint64_t>{0, 2, 0}));
   // "1.0" and "1e0" are one label, spelled canonically.
   EXPECT_EQ(s->target.classes, (std::map<std::string, uint64_t>{{"1", 2}, {"x", 1}}));
-  EXPECT_EQ(RowsSummaryToJson(*s), R"({"missing":[0,2,0],"rows":3,"target":{"classes":{"1":2,"x":1}}})");
+  EXPECT_EQ(RowsSummaryToJson(*s),
+            R"({"missing":[0,2,0],"rows":3,"target":{"classes":{"1":2,"x":1}}})");
 }
 
 TEST(RowSummaryTest, RegressionRangeAndMeanOfTheListedRows) {
@@ -60,8 +61,10 @@ TEST(RowSummaryTest, ATextTargetInARegressionIsAnErrorAtItsCell) {
 }
 
 TEST(RowSummaryTest, MalformedJsonNamesTheField) {
-  EXPECT_NE(RowsSummaryFromJson(R"({"rows":1,"missing":[0],"target":{}})", 2).status().message().find(
-                "'missing'"),
+  EXPECT_NE(RowsSummaryFromJson(R"({"rows":1,"missing":[0],"target":{}})", 2)
+                .status()
+                .message()
+                .find("'missing'"),
             std::string::npos);
   EXPECT_NE(RowsSummaryFromJson(R"({"rows":1,"missing":[0],"target":{"min":1}})", 1)
                 .status()
