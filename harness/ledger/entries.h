@@ -133,9 +133,10 @@ struct SealBody {
     RowsSummary summary;  // "summary": the figures over the development rows
   } dev;
   KeyInfo key;
-  uint64_t cross_duplicate_holdout_rows = 0;   // "cross_duplicates": {"holdout_rows",
-  uint64_t cross_duplicate_dev_rows = 0;       //  "dev_rows",
-  bool cross_duplicates_moved_to_dev = false;  //  "moved_to_dev"}
+  // "cross_duplicates": {"moved_to_dev"}. How many rows were exact duplicates across the cut is
+  // sealed (SealedFigures, harness/ledger/sealed_figures.h): with the dev rows' multiplicities,
+  // the counts would tell which contents, labels included, the holdout holds.
+  bool cross_duplicates_moved_to_dev = false;
   std::optional<uint64_t> group_violations;    // "violations.group"; null: no group column
   std::optional<uint64_t> time_violations;     // "violations.time"; null: no time column
   uint64_t budget_queries = 0;

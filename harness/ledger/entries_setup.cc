@@ -151,10 +151,7 @@ std::string EncodeFields(const SealBody& b) {
         {"file",
          {{"path", d.file_path}, {"sha256", ToHex(d.file_sha256)}, {"size", d.file_size}}}}},
       {"key", KeyJson(b.key)},
-      {"cross_duplicates",
-       {{"holdout_rows", b.cross_duplicate_holdout_rows},
-        {"dev_rows", b.cross_duplicate_dev_rows},
-        {"moved_to_dev", b.cross_duplicates_moved_to_dev}}},
+      {"cross_duplicates", {{"moved_to_dev", b.cross_duplicates_moved_to_dev}}},
       {"violations", {{"group", NullOr(b.group_violations)}, {"time", NullOr(b.time_violations)}}},
       {"budget", budget}};
   return j.dump();
@@ -194,8 +191,6 @@ Status DecodeBody(const Entry& entry, SealBody* b) {
   d.file_sha256 = r.RequiredDigest("dev.file.sha256");
   d.file_size = r.Required<uint64_t>("dev.file.size");
   b->key = ReadKey(r);
-  b->cross_duplicate_holdout_rows = r.Optional<uint64_t>("cross_duplicates.holdout_rows");
-  b->cross_duplicate_dev_rows = r.Optional<uint64_t>("cross_duplicates.dev_rows");
   b->cross_duplicates_moved_to_dev = r.Optional<bool>("cross_duplicates.moved_to_dev");
   b->group_violations = r.Nullable<uint64_t>("violations.group");
   b->time_violations = r.Nullable<uint64_t>("violations.time");
@@ -234,7 +229,6 @@ auto Tie(const SealBody& s) {
                   h.rows, h.row_set, h.sealed_rows, h.sealed_digests, h.sealed_summary, h.cipher,
                   h.compression, h.encoding, d.rows, d.row_set, d.row_digests, d.content_digests,
                   d.file_path, d.file_sha256, d.file_size, s.key,
-                  s.cross_duplicate_holdout_rows, s.cross_duplicate_dev_rows,
                   s.cross_duplicates_moved_to_dev, s.group_violations, s.time_violations,
                   s.budget_queries, s.budget_half_width, s.budget_delta);
 }

@@ -1,5 +1,7 @@
 #include "harness/ledger/sealed_figures.h"
 
+#include <nlohmann/json.hpp>
+
 #include "storage/sealed_blob.h"
 
 namespace unseen {
@@ -53,8 +55,11 @@ Result<std::string> SealHoldoutDigests(const Key& key, const std::string& aad,
 }
 
 Result<std::string> SealSourceSummary(const Key& key, const std::string& aad,
-                                      const RowsSummary& s) {
-  return Seal(key, aad, RowsSummaryToJson(s));
+                                      const SealedFigures& f) {
+  nlohmann::json j = nlohmann::json::parse(RowsSummaryToJson(f.source));
+  j["cross_duplicates"] = {{"holdout_rows", f.cross_duplicate_holdout_rows},
+                           {"dev_rows", f.cross_duplicate_dev_rows}};
+  return Seal(key, aad, j.dump());
 }
 
 Result<HoldoutDigests> ReadHoldoutDigests(const Ledger& ledger, const LedgerState& st,
@@ -77,18 +82,35 @@ Result<HoldoutDigests> ReadHoldoutDigests(const Ledger& ledger, const LedgerStat
   return d;
 }
 
-Result<RowsSummary> ReadSourceSummary(const Ledger& ledger, const LedgerState& st, const Key& key) {
+Result<SealedFigures> ReadSealedFigures(const Ledger& ledger, const LedgerState& st,
+                                        const Key& key) {
   if (!st.seal) return Status::FailedPrecondition(ledger.path() + ": the ledger is not sealed yet");
   UNSEEN_ASSIGN_OR_RETURN(
       std::string plain,
       Open(ledger, st, key, st.seal->sealed_summary,
            SealedSummaryAad(st.ledger_id, st.seal->holdout_set), "source figures"));
+  const std::string where =
+      "entry " + std::to_string(st.seal->entry_seq) + " (seal): the sealed source figures: ";
   Result<RowsSummary> s = RowsSummaryFromJson(plain, st.source.columns.size());
-  if (!s.ok()) {
-    return Status::Corruption("entry " + std::to_string(st.seal->entry_seq) +
-                              " (seal): the sealed source figures: " + s.status().message());
+  if (!s.ok()) return Status::Corruption(where + s.status().message());
+  SealedFigures f;
+  f.source = std::move(*s);
+  const nlohmann::json j = nlohmann::json::parse(plain, nullptr, /*allow_exceptions=*/false);
+  const nlohmann::json* dup = j.contains("cross_duplicates") ? &j["cross_duplicates"] : nullptr;
+  if (dup == nullptr || !dup->is_object() || !dup->contains("holdout_rows") ||
+      !dup->contains("dev_rows") || !(*dup)["holdout_rows"].is_number_unsigned() ||
+      !(*dup)["dev_rows"].is_number_unsigned()) {
+    return Status::Corruption(where + "'cross_duplicates': expected two counts");
   }
-  return s;
+  f.cross_duplicate_holdout_rows = (*dup)["holdout_rows"].get<uint64_t>();
+  f.cross_duplicate_dev_rows = (*dup)["dev_rows"].get<uint64_t>();
+  return f;
+}
+
+Result<RowsSummary> ReadSourceSummary(const Ledger& ledger, const LedgerState& st,
+                                      const Key& key) {
+  UNSEEN_ASSIGN_OR_RETURN(SealedFigures f, ReadSealedFigures(ledger, st, key));
+  return std::move(f.source);
 }
 
 }  // namespace unseen

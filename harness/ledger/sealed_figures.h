@@ -27,6 +27,15 @@ struct HoldoutDigests {
   size_t rows() const { return content.size() / 16; }
 };
 
+// What the `sealed-summary` blob holds: the figures over every source row, and how many rows
+// were exact duplicates across the cut (holdout rows with a copy in dev, dev rows with a copy in
+// the holdout), which the seal entry does not publish.
+struct SealedFigures {
+  RowsSummary source;
+  uint64_t cross_duplicate_holdout_rows = 0;
+  uint64_t cross_duplicate_dev_rows = 0;
+};
+
 // The AADs of the two blobs (docs/sealed-format.md).
 std::string SealedDigestsAad(const std::string& ledger_id, const Digest256& holdout_set);
 std::string SealedSummaryAad(const std::string& ledger_id, const Digest256& holdout_set);
@@ -35,8 +44,10 @@ std::string SealedSummaryAad(const std::string& ledger_id, const Digest256& hold
 // InvalidArgument if the two lists differ in length; errors of SealedWriter otherwise.
 Result<std::string> SealHoldoutDigests(const Key& key, const std::string& aad,
                                        const HoldoutDigests& d);
-// The sealed blob of `s` (plaintext: RowsSummaryToJson).
-Result<std::string> SealSourceSummary(const Key& key, const std::string& aad, const RowsSummary& s);
+// The sealed blob of `f` (plaintext: RowsSummaryToJson of f.source, with "cross_duplicates":
+// {"holdout_rows", "dev_rows"} added).
+Result<std::string> SealSourceSummary(const Key& key, const std::string& aad,
+                                      const SealedFigures& f);
 
 // The holdout rows' digests, opened with `key` (checked by KeyForSeal). FailedPrecondition
 // before the seal; Corruption if the blob is missing, fails authentication or does not hold
@@ -48,6 +59,9 @@ Result<HoldoutDigests> ReadHoldoutDigests(const Ledger& ledger, const LedgerStat
 // with counts, or the target's min, max and mean), opened with `key`. Errors as
 // ReadHoldoutDigests. This is where eval finds the source-wide target range.
 Result<RowsSummary> ReadSourceSummary(const Ledger& ledger, const LedgerState& st, const Key& key);
+// The same with the cross-duplicate counts.
+Result<SealedFigures> ReadSealedFigures(const Ledger& ledger, const LedgerState& st,
+                                        const Key& key);
 
 }  // namespace unseen
 

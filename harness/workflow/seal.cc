@@ -519,7 +519,9 @@ Status StoreDigestsAndFigures(SealRun* run) {
   UNSEEN_ASSIGN_OR_RETURN(run->refs[2], ledger->PutBlob("sealed-digests", sealed_digests));
   UNSEEN_ASSIGN_OR_RETURN(
       std::string sealed_summary,
-      SealSourceSummary(key, SealedSummaryAad(id, holdout_set), SummaryOfSource(scan.info)));
+      SealSourceSummary(key, SealedSummaryAad(id, holdout_set),
+                        SealedFigures{SummaryOfSource(scan.info), run->flagged.size(),
+                                      run->report.cross_duplicate_dev_rows}));
   UNSEEN_ASSIGN_OR_RETURN(run->digest_refs[2], ledger->PutBlob("sealed-summary", sealed_summary));
   UNSEEN_ASSIGN_OR_RETURN(run->digest_refs[0],
                           ledger->PutBlob("row-digests", Gather(scan.row_digests, split.dev)));
@@ -609,8 +611,6 @@ Status RecordSeal(SealRun* run) {
   body.dev.summary = run->dev_summary;
   body.key = req.key_info;
   body.key.key_check_hex = ToHex(KeyCheck(req.key, run->state.ledger_id));
-  body.cross_duplicate_holdout_rows = report.cross_duplicate_holdout_rows;
-  body.cross_duplicate_dev_rows = report.cross_duplicate_dev_rows;
   body.cross_duplicates_moved_to_dev = report.dropped_cross_duplicates;
   if (report.has_group) body.group_violations = report.group_violations;
   if (report.has_time) body.time_violations = report.time_violations;

@@ -267,6 +267,18 @@ TEST_F(HoldoutOracleTest, PublishedFiguresAreTheDevRowsAndSourceWideOnesAreSeale
   auto sealed = ReadSourceSummary(**ledger, *st, *key);
   ASSERT_OK(sealed);
   EXPECT_EQ(json::parse(RowsSummaryToJson(*sealed)), whole);
+  // The cross-duplicate counts seal showed the key holder are sealed too, not in the entry.
+  auto figures_sealed = ReadSealedFigures(**ledger, *st, *key);
+  ASSERT_OK(figures_sealed);
+  EXPECT_EQ(figures_sealed->cross_duplicate_holdout_rows,
+            seal_json_["cross_duplicates"]["holdout_rows"].get<uint64_t>());
+  EXPECT_EQ(figures_sealed->cross_duplicate_dev_rows,
+            seal_json_["cross_duplicates"]["dev_rows"].get<uint64_t>());
+  for (const json& e : History()) {
+    if (e["kind"] == "seal") {
+      EXPECT_EQ(e["body"]["cross_duplicates"], json({{"moved_to_dev", false}}));
+    }
+  }
   Key wrong = *key;
   wrong[0] ^= 1;
   EXPECT_FALSE(ReadSourceSummary(**ledger, *st, wrong).ok());

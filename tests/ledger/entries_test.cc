@@ -131,8 +131,6 @@ SealBody SampleSeal() {
   b.key.scrypt = {16384, 4, 2};
   b.key.salt_hex = "abcd";
   b.key.key_check_hex = "beef";
-  b.cross_duplicate_holdout_rows = 1;
-  b.cross_duplicate_dev_rows = 2;
   b.cross_duplicates_moved_to_dev = true;
   b.group_violations = 4;
   b.time_violations = 5;
@@ -397,7 +395,7 @@ TEST(EntriesTest, SourceFieldsArePinned) {
 TEST(EntriesTest, SealFieldsArePinned) {
   const std::string expected =
       R"({"budget":{"delta":0.01,"half_width":0.1,"queries":50},)"
-      R"("cross_duplicates":{"dev_rows":2,"holdout_rows":1,"moved_to_dev":true},)"
+      R"("cross_duplicates":{"moved_to_dev":true},)"
       R"("dev":{"content_digests":"1818181818181818181818181818181818181818181818181818181818181818",)"
       R"("file":{"path":"dev.csv",)"
       R"("sha256":"1515151515151515151515151515151515151515151515151515151515151515",)"
