@@ -107,8 +107,7 @@ Result<SealedFigures> ReadSealedFigures(const Ledger& ledger, const LedgerState&
   return f;
 }
 
-Result<RowsSummary> ReadSourceSummary(const Ledger& ledger, const LedgerState& st,
-                                      const Key& key) {
+Result<RowsSummary> ReadSourceSummary(const Ledger& ledger, const LedgerState& st, const Key& key) {
   UNSEEN_ASSIGN_OR_RETURN(SealedFigures f, ReadSealedFigures(ledger, st, key));
   return std::move(f.source);
 }
