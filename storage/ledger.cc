@@ -163,9 +163,23 @@ Result<std::unique_ptr<Ledger>> Ledger::Open(const std::string& path, LedgerMode
       return Status::Corruption(path + ": not an unseen ledger (SQLite application_id " +
                                 std::to_string(app) + ")");
     }
+    if (version >= 1 && version < kLedgerFormatVersion) {
+      return Status::InvalidArgument(
+          path + ": ledger format " + std::to_string(version) + " was written by an older unseen; " +
+          "this version reads format " + std::to_string(kLedgerFormatVersion) +
+          " only (format 1 kept plain per-row digests that a reader could match against guessed "
+          "rows). Finish that evaluation with the version that wrote it, or register the source "
+          "again in a new ledger (`unseen init`) and seal it (`unseen seal`)");
+    }
+    if (version > kLedgerFormatVersion) {
+      return Status::InvalidArgument(path + ": ledger format " + std::to_string(version) +
+                                     " was written by a newer unseen; this version reads format " +
+                                     std::to_string(kLedgerFormatVersion) +
+                                     " only. Use a newer unseen");
+    }
     if (version != kLedgerFormatVersion) {
       return Status::Corruption(path + ": ledger format " + std::to_string(version) +
-                                " is not supported by this version (format " +
+                                " is not a known format (this version reads format " +
                                 std::to_string(kLedgerFormatVersion) + ")");
     }
     UNSEEN_RETURN_IF_ERROR(impl->LoadHead());

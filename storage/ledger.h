@@ -30,8 +30,10 @@
 namespace unseen {
 
 // The ledger file format version. Written to disk (genesis entry and the
-// SQLite user_version); bump only with a migration.
-inline constexpr int kLedgerFormatVersion = 1;
+// SQLite user_version); bump only with a migration. Format 2: no per-row
+// digest is stored before the seal, holdout digests and source-wide figures
+// are sealed (docs/row-digests.md); format 1 ledgers are refused.
+inline constexpr int kLedgerFormatVersion = 2;
 
 enum class LedgerMode { kReadOnly, kReadWrite };
 
@@ -76,8 +78,9 @@ class Ledger {
   static Result<std::unique_ptr<Ledger>> Create(const std::string& path, std::string_view actor,
                                                 std::string_view genesis_fields);
 
-  // Opens an existing ledger. NotFound if missing; Corruption if the file is
-  // not a ledger of a known format version.
+  // Opens an existing ledger. NotFound if missing; InvalidArgument naming
+  // both formats if it is a ledger of another format version (older or
+  // newer); Corruption if the file is not a ledger.
   static Result<std::unique_ptr<Ledger>> Open(const std::string& path, LedgerMode mode);
 
   const std::string& path() const { return path_; }

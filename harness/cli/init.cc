@@ -38,15 +38,12 @@ void PrintReport(const InitOptions& opt, const InitReport& r) {
   fmt::print("  rows        {}\n", s.rows);
   fmt::print("  file        {} bytes, sha256 {}\n", s.file_size, ToHex(s.file_sha256));
   fmt::print("  merkle root {}\n", ToHex(s.merkle_root));
-  if (s.task == TaskKind::kClassification) {
-    fmt::print("  task        classification, {} classes\n", s.target.classes.size());
-  } else {
-    fmt::print("  task        regression, target in [{}, {}]\n", s.target.min, s.target.max);
-  }
+  // No figure over rows (classes, target range, missing cells) before the seal: `seal`
+  // publishes them over the development rows only.
+  fmt::print("  task        {}\n", TaskKindName(s.task));
   fmt::print("  columns\n");
   for (const ColumnInfo& c : s.columns) {
-    fmt::print("    {:<24} {:<12} {:<8} {} missing\n", c.name, ColumnTypeName(c.type),
-               ColumnRoleName(c.role), c.missing);
+    fmt::print("    {:<24} {:<12} {}\n", c.name, ColumnTypeName(c.type), ColumnRoleName(c.role));
   }
   fmt::print("  head        {}\n", ToHex(r.head));
 }

@@ -51,6 +51,7 @@ void PrintReport(const SealOptions& opt, const SealReport& r) {
         {"time_violations", r.has_time ? nlohmann::json(r.time_violations) : nlohmann::json()},
         {"budget_queries", s.budget_queries},
         {"budget_half_width", s.budget_half_width},
+        {"dev_summary", nlohmann::json::parse(RowsSummaryToJson(s.dev_summary))},
         {"head", ToHex(r.head)}};
     fmt::print("{}\n", j.dump());
     return;

@@ -29,6 +29,8 @@ Runner SetupStatus(CLI::App& app) {
         j["holdout_rows"] = st.seal->holdout_rows;
         j["dev_rows"] = st.seal->dev_rows;
         j["strategy"] = st.seal->strategy;
+        // The figures over the development rows, as the seal published them.
+        j["dev_summary"] = json::parse(RowsSummaryToJson(st.seal->dev_summary));
         j["budget_queries"] = st.seal->budget_queries;
         j["budget_remaining"] = status.budget_remaining();
         j["budget_raises"] = st.budget_raises;

@@ -1,6 +1,6 @@
 // Row digests: SHA-256 of a row's canonical bytes, truncated to 16 bytes.
 //
-// Canonical form, format 1 (docs/row-digests.md; written to disk, never
+// Canonical form, formats 1 and 2 (docs/row-digests.md; written to disk, never
 // changes without a new format number): for each included column, in column
 // order, one cell:
 //   missing (empty, NA, NaN)   0x00
@@ -27,7 +27,9 @@
 
 namespace unseen {
 
-inline constexpr int kRowDigestFormat = 1;
+// Format 2 keeps the canonical bytes of format 1; what changed is where digests are kept
+// (docs/row-digests.md).
+inline constexpr int kRowDigestFormat = 2;
 
 // What a cell is, by its text alone.
 enum class CellKind { kMissing, kNumber, kText };

@@ -87,8 +87,10 @@ void RowMatcher::Work() {
   }
   if (needed && result_.status.ok()) {
     if (by_content_) used_.assign(tables_.content_digests.size() / sizeof(RowDigest), false);
-    content_.emplace(tables_.content_digests);
+    content_.emplace(tables_.content_digests,
+                     tables_.known_rows.empty() ? nullptr : &tables_.known_rows);
     holdout_features_.emplace(tables_.holdout_feature_digests);
+    match_features_ = !tables_.holdout_feature_digests.empty();
   }
   while (std::optional<std::unique_ptr<MatchBatch>> b = queue_.Pop()) {
     if (result_.status.ok() && !stopped_.load(std::memory_order_relaxed)) Match(**b);
@@ -172,7 +174,7 @@ void RowMatcher::Match(const MatchBatch& b) {
       });
       if (is_dev) is_holdout = false;  // an exact duplicate of a dev row is that dev row
     }
-    if (!is_dev) {
+    if (!is_dev && match_features_) {
       Sha256 features;
       features.Update(bytes_.data() + begin_of(i), target_begin_[i] - begin_of(i));
       features.Update(bytes_.data() + target_end_[i], ends_[i] - target_end_[i]);

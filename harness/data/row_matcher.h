@@ -79,11 +79,16 @@ struct MatchResult {
   std::vector<uint64_t> first_lines;  // lines of the first few rows counted above
 };
 
-// What rows are matched against, as the ledger stores it.
+// What rows are matched against. Without the key only the development rows' digests are
+// known: then `known_rows` lists them, `holdout` is empty and so is the feature list, and a row
+// is either a development row or unknown, never a holdout row (docs/row-digests.md).
 struct MatchTables {
-  std::string content_digests;          // of every source row, 16 bytes each, in row order
-  std::string holdout_feature_digests;  // of every holdout row, in row order
-  RowSet holdout;                       // the holdout's row numbers
+  // 16 bytes for each source row, in row order; only the rows in known_rows are looked up.
+  std::string content_digests;
+  std::string holdout_feature_digests;  // of every holdout row, in row order; may be empty
+  RowSet holdout;                       // the holdout's row numbers; empty without the key
+  // The rows whose content digests are known (ascending); empty: every row.
+  std::vector<uint32_t> known_rows;
 };
 
 class RowMatcher {
@@ -139,6 +144,7 @@ class RowMatcher {
   std::function<Result<MatchTables>()> load_;              // run first by the thread
   MatchTables tables_;                                     // what load_ gave
   std::optional<DigestIndex> content_, holdout_features_;  // built by the thread, first
+  bool match_features_ = false;  // some holdout feature digest is known
   const MatchLayout layout_;
   const size_t target_;
   const std::optional<size_t> id_;

@@ -37,7 +37,7 @@ struct ColumnInfo {
   std::string name;
   ColumnType type = ColumnType::kCategorical;
   ColumnRole role = ColumnRole::kFeature;
-  uint64_t missing = 0;  // cells that are empty, NA or NaN
+  uint64_t missing = 0;  // cells that are empty, NA or NaN (see SourceInfo::target)
 };
 
 // The column names given to `init` for each role; empty means none.
@@ -56,6 +56,23 @@ struct TargetSummary {
   double min = 0, max = 0, mean = 0;
 };
 
+// Figures over a set of rows of a source: how many, the missing cells of each column, and the
+// target's summary. Published for the development rows (the seal entry); the same figures over
+// every row are sealed with the holdout (docs/row-digests.md, "Published figures").
+struct RowsSummary {
+  uint64_t rows = 0;
+  std::vector<uint64_t> missing;  // per source column, in column order
+  TaskKind task = TaskKind::kClassification;
+  TargetSummary target;
+};
+
+// The summary's JSON form (an object text): {"rows", "missing": [per column], "target":
+// {"classes": {label: count}} or {"min", "max", "mean"}}. The inverse is RowsSummaryFromJson.
+std::string RowsSummaryToJson(const RowsSummary& s);
+// InvalidArgument naming the field when `text` is not that form, or (unless `columns` is 0)
+// its missing counts are not `columns` long.
+Result<RowsSummary> RowsSummaryFromJson(std::string_view text, size_t columns);
+
 struct SourceInfo {
   std::string path;          // as given to init
   Digest256 file_sha256{};
@@ -64,8 +81,11 @@ struct SourceInfo {
   uint64_t rows = 0;
   std::vector<ColumnInfo> columns;
   TaskKind task = TaskKind::kClassification;
+  // Not in the `source` entry (format 2): figures over rows are published only once the
+  // holdout is sealed, and then over the development rows (LedgerState fills them in from the
+  // seal entry; ColumnInfo::missing likewise). Empty before the seal.
   TargetSummary target;
-  int row_digest_format = 1;
+  int row_digest_format = 2;
   Digest256 merkle_root{};   // RFC 6962 root over the row digests, in row order
 
   // Column index of a role, if the source has one.
@@ -73,8 +93,13 @@ struct SourceInfo {
   std::optional<size_t> ColumnNamed(const std::string& name) const;
 };
 
-// The `source` entry's fields (a JSON object text), without blob references.
+// The `source` entry's fields (a JSON object text): the file, its columns (name, type, role),
+// row count, task, digest format and Merkle root. No per-row or label figure: neither the
+// target summary nor the missing counts.
 std::string SourceToJson(const SourceInfo& s);
+
+// The summary of every row of a scanned source (its columns' missing counts and its target).
+RowsSummary SummaryOfSource(const SourceInfo& s);
 
 }  // namespace unseen
 

@@ -8,6 +8,7 @@
 #include "harness/data/source_scan.h"
 #include "harness/pipeline/pipeline.h"
 #include "harness/evaluate/sealed_holdout.h"
+#include "harness/ledger/sealed_figures.h"
 #include "storage/row_set.h"
 
 namespace unseen {
@@ -34,8 +35,9 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(seal.holdout_set));
   UNSEEN_ASSIGN_OR_RETURN(RowSet holdout, RowSet::Deserialize(set_bytes));
   const std::vector<uint32_t> rows = holdout.ToVector();
-  UNSEEN_ASSIGN_OR_RETURN(std::string row_digests, ledger.GetBlob(st.row_digests));
-  if (row_digests.size() != st.source.rows * sizeof(RowDigest)) return Mismatch("row digest count");
+  UNSEEN_ASSIGN_OR_RETURN(HoldoutDigests held, ReadHoldoutDigests(ledger, st, key));
+  if (held.rows() != rows.size()) return Mismatch("holdout digest count");
+  const std::string& row_digests = held.content;  // the holdout rows' sealed content digests
 
   const SourceInfo& src = st.source;
   CsvOptions options;
@@ -56,14 +58,16 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   const size_t target_col = *src.ColumnOf(ColumnRole::kTarget);
   const std::vector<std::string> labels = Labels(src);
   std::vector<double> target;
-  RowDigester all;
+  std::vector<size_t> id_col;
+  if (auto id = src.ColumnOf(ColumnRole::kId)) id_col.push_back(*id);
+  RowDigester all(id_col);  // the content digest: every column but the id
   uint64_t n = 0;
   UNSEEN_RETURN_IF_ERROR(csv->ForEachRecord([&](const CsvRecord& r) -> Status {
     const auto& f = *r.fields;
     if (n >= rows.size()) return Mismatch("more rows than the holdout set");
     RowDigest d = all.Digest(f);
-    if (std::memcmp(d.data(), row_digests.data() + size_t{rows[n]} * d.size(), d.size()) != 0) {
-      return Mismatch("row " + std::to_string(rows[n]) + " differs from its row digest");
+    if (std::memcmp(d.data(), row_digests.data() + n * d.size(), d.size()) != 0) {
+      return Mismatch("row " + std::to_string(rows[n]) + " differs from its content digest");
     }
     ++n;
     for (size_t k = 0; k < feature_cols.size(); ++k) {

@@ -14,6 +14,7 @@
 #include "harness/data/row_digest.h"
 #include "harness/data/row_matcher.h"
 #include "harness/data/source_scan.h"
+#include "harness/ledger/sealed_figures.h"
 
 namespace unseen {
 
@@ -150,20 +151,45 @@ Result<FilePlan> PlanFile(const CsvFile& csv, const SourceInfo& src, DataPurpose
   return plan;
 }
 
-// Digests to match against: content digests of all rows, feature digests of the holdout.
-// The matcher reads them from the ledger on its own thread, while the caller reads the file
-// and leaves the ledger alone until Finish().
-std::function<Result<MatchTables>()> TableLoader(const Ledger& ledger, const LedgerState& st) {
-  return [&ledger, &st]() -> Result<MatchTables> {
+// Digests to match against. Without the key: the development rows' content digests, which
+// the ledger keeps plain, so a row is a development row or unknown. With the key: the holdout
+// rows' content and feature digests too, opened from their sealed blob. The matcher reads them
+// on its own thread, while the caller reads the file and leaves the ledger alone until
+// Finish().
+std::function<Result<MatchTables>()> TableLoader(const Ledger& ledger, const LedgerState& st,
+                                                 const Key* key) {
+  return [&ledger, &st, key]() -> Result<MatchTables> {
+    const SealInfo& seal = *st.seal;
     MatchTables tables;
-    UNSEEN_ASSIGN_OR_RETURN(tables.content_digests, ledger.GetBlob(st.content_digests));
-    if (tables.content_digests.size() != st.source.rows * sizeof(RowDigest)) {
-      return Status::Corruption("the content digest list does not match the source's row count");
+    UNSEEN_ASSIGN_OR_RETURN(std::string dev_bytes, ledger.GetBlob(seal.dev_set));
+    UNSEEN_ASSIGN_OR_RETURN(RowSet dev_set, RowSet::Deserialize(dev_bytes));
+    std::vector<uint32_t> dev = dev_set.ToVector();
+    UNSEEN_ASSIGN_OR_RETURN(std::string dev_digests, ledger.GetBlob(seal.dev_content_digests));
+    if (dev_digests.size() != dev.size() * sizeof(RowDigest)) {
+      return Status::Corruption("the development rows' content digests do not match their count");
     }
-    UNSEEN_ASSIGN_OR_RETURN(tables.holdout_feature_digests,
-                            ledger.GetBlob(st.seal->holdout_feature_digests));
-    UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(st.seal->holdout_set));
+    std::string& all = tables.content_digests;
+    all.assign(st.source.rows * sizeof(RowDigest), '\0');
+    for (size_t i = 0; i < dev.size(); ++i) {
+      if (dev[i] >= st.source.rows) return Status::Corruption("a dev row beyond the source");
+      std::memcpy(&all[size_t{dev[i]} * sizeof(RowDigest)], dev_digests.data() + i * 16, 16);
+    }
+    if (key == nullptr) {
+      tables.known_rows = std::move(dev);
+      return tables;
+    }
+    UNSEEN_ASSIGN_OR_RETURN(HoldoutDigests held, ReadHoldoutDigests(ledger, st, *key));
+    UNSEEN_ASSIGN_OR_RETURN(std::string set_bytes, ledger.GetBlob(seal.holdout_set));
     UNSEEN_ASSIGN_OR_RETURN(tables.holdout, RowSet::Deserialize(set_bytes));
+    const std::vector<uint32_t> holdout = tables.holdout.ToVector();
+    if (holdout.size() != held.rows()) {
+      return Status::Corruption("the sealed holdout digests do not match the holdout's row count");
+    }
+    for (size_t i = 0; i < holdout.size(); ++i) {
+      if (holdout[i] >= st.source.rows) return Status::Corruption("a holdout row beyond the source");
+      std::memcpy(&all[size_t{holdout[i]} * sizeof(RowDigest)], held.content.data() + i * 16, 16);
+    }
+    tables.holdout_feature_digests = std::move(held.feature);
     return tables;
   };
 }
@@ -323,6 +349,11 @@ std::vector<std::string> ClassLabels(const SourceInfo& source) {
 
 Result<AdmittedData> AdmitData(const Ledger& ledger, const LedgerState& st, const std::string& path,
                                DataPurpose purpose, DataRefusal* refusal) {
+  return AdmitData(ledger, st, path, purpose, refusal, nullptr);
+}
+
+Result<AdmittedData> AdmitData(const Ledger& ledger, const LedgerState& st, const std::string& path,
+                               DataPurpose purpose, DataRefusal* refusal, const Key* key) {
   if (!st.seal)
     return Status::FailedPrecondition(ledger.path() + ": seal the holdout first (`unseen seal`)");
   const SourceInfo& src = st.source;
@@ -335,10 +366,14 @@ Result<AdmittedData> AdmitData(const Ledger& ledger, const LedgerState& st, cons
   AdmittedData out;
   out.path = path;
   out.labelled = plan.labelled;
-  RowMatcher matcher(TableLoader(ledger, st), MatchLayout{src.delimiter, plan.layout.file_of_source},
-                     plan.target_col, plan.id_col, plan.full_row && plan.labelled,
-                     purpose == DataPurpose::kDevRows,
-                     /*held=*/csv->size() == seal.dev_out_size);
+  // New rows without the key: there is nothing to match them against (the holdout's digests
+  // are sealed), so the matcher is stopped before it loads anything.
+  const bool nothing_to_match = purpose == DataPurpose::kNewRows && key == nullptr;
+  RowMatcher matcher(TableLoader(ledger, st, key),
+                     MatchLayout{src.delimiter, plan.layout.file_of_source}, plan.target_col,
+                     plan.id_col, plan.full_row && plan.labelled, purpose == DataPurpose::kDevRows,
+                     /*held=*/nothing_to_match || csv->size() == seal.dev_out_size);
+  if (nothing_to_match) matcher.Stop();
   std::atomic<bool> is_dev_file{false};
   std::future<Result<FileDigest>> file_digest = HashFile(*csv, seal, &matcher, &is_dev_file);
   RowReader reader(src, plan, *csv, &matcher, &out);

@@ -1,7 +1,8 @@
 // Data brought into the ledger's world: a CSV given to fit, predict or any
-// other command is matched row by row against the source's digests before
-// use. Holdout rows (by content or feature digest) are refused; so are rows
-// that are not development rows when development rows are required.
+// other command is matched row by row against the development rows' digests
+// before use; rows that are not development rows are refused when
+// development rows are required. With the key, holdout rows (by content or
+// feature digest) are recognised and refused as such.
 // Thread-compatible.
 #ifndef UNSEEN_HARNESS_LEDGER_ADMIT_H_
 #define UNSEEN_HARNESS_LEDGER_ADMIT_H_
@@ -14,12 +15,13 @@
 #include "harness/ledger/ledger_state.h"
 #include "storage/ledger.h"
 #include "storage/row_set.h"
+#include "storage/seal_crypto.h"
 
 namespace unseen {
 
 enum class DataPurpose {
   kDevRows,  // every row must be a development row of the source (fit, export)
-  kNewRows,  // rows may be new; none may be a holdout row (predict)
+  kNewRows,  // rows may be new (predict); with the key, none may be a holdout row (eval)
 };
 
 struct AdmittedData {
@@ -46,10 +48,20 @@ struct DataRefusal {
   std::vector<uint64_t> first_lines;
 };
 
-// Admits `path`: reads it and matches every row against the source and the holdout before
-// anything it holds is used. Refused (with *refusal filled in) when rows
-// match the holdout or, for kDevRows, are not development rows;
+// Admits `path`: reads it and matches every row against the development rows (and, given
+// the key, the holdout) before anything it holds is used.
+//
+// Without the key (fit, predict, and every command a modeller runs) only the development rows'
+// digests are known: kDevRows refuses every row that is not a development row, a holdout row
+// among them, without telling which (docs/row-digests.md); kNewRows matches nothing, since no
+// answer may say whether a row is a holdout row. With `key` (checked by KeyForSeal; eval's
+// attached files), the sealed holdout digests are opened and a row matching a holdout row by
+// content or by features is refused as one. Refused (with *refusal filled in) on such rows;
 // InvalidArgument for malformed CSV or missing columns.
+Result<AdmittedData> AdmitData(const Ledger& ledger, const LedgerState& state,
+                               const std::string& path, DataPurpose purpose, DataRefusal* refusal,
+                               const Key* key);
+// The same without the key.
 Result<AdmittedData> AdmitData(const Ledger& ledger, const LedgerState& state,
                                const std::string& path, DataPurpose purpose, DataRefusal* refusal);
 

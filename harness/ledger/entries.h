@@ -80,26 +80,26 @@ struct KeyInfo {
 struct GenesisBody {
   static constexpr std::string_view kKind = kKindLedger;
   std::string ledger_id;      // 32 hex digits, random
-  int row_digest_format = 1;  // absent: 1
+  int row_digest_format = 2;  // absent: 1
   // Added by Ledger::Create, not by the encoder; read back by the decoder.
   int format = kLedgerFormatVersion;
 };
 
 // "source": the registered file. The source's own fields are SourceInfo's
-// JSON form (SourceToJson in harness/data/source.h), every key required;
-// so are row_digests and content_digests.
+// JSON form (SourceToJson in harness/data/source.h), every key required.
+// Format 2 stores no per-row digest and no figure over rows here: the
+// Merkle root is the source's one commitment to its rows.
 struct SourceBody {
   static constexpr std::string_view kKind = kKindSource;
   SourceInfo source;
   std::optional<std::string> absolute_path;  // "file.absolute_path"; absent: source.path
-  Digest256 row_digests{};                   // the row-digests blob
-  Digest256 content_digests{};               // the content-digests blob (or row_digests)
 };
 
 // "seal". Required: strategy, fraction, seed, holdout.{rows, row_set,
-// sealed_rows, feature_digests}, dev.{rows, row_set}, dev.file.{path,
-// sha256, size}, key.{source, key_check} (and salt, scrypt.{N, r, p} for a
-// passphrase), budget.queries. Defaults: holdout.encoding "csv" (seals
+// sealed_rows, sealed_digests, sealed_summary}, dev.{rows, row_set,
+// row_digests, content_digests, summary}, dev.file.{path, sha256, size},
+// key.{source, key_check} (and salt, scrypt.{N, r, p} for a passphrase),
+// budget.queries. Defaults: holdout.encoding "csv" (seals
 // before the encoding had a name), budget.half_width 0, budget.delta 0.05.
 // The rest are never read back; absent, they take the zero value.
 struct SealBody {
@@ -112,7 +112,11 @@ struct SealBody {
   std::string split_note;
   struct Holdout {
     uint64_t rows = 0;
-    Digest256 row_set{}, sealed_rows{}, feature_digests{};
+    Digest256 row_set{}, sealed_rows{};
+    // Sealed like the rows (AES-256-GCM under the key): the holdout rows' digests
+    // (HoldoutDigests, harness/ledger/sealed_figures.h) and the figures over every
+    // source row (RowsSummary).
+    Digest256 sealed_digests{}, sealed_summary{};
     std::string cipher;       // "AES-256-GCM"
     std::string compression;  // "zstd"
     std::string encoding = "csv";
@@ -123,11 +127,16 @@ struct SealBody {
     std::string file_path;  // "file": where seal wrote the development rows
     Digest256 file_sha256{};
     uint64_t file_size = 0;
+    // Plain: the development rows' row digests and content digests (16 bytes a row, in row
+    // order); content_digests equals row_digests when the source has no id column.
+    Digest256 row_digests{}, content_digests{};
+    RowsSummary summary;  // "summary": the figures over the development rows
   } dev;
   KeyInfo key;
-  uint64_t cross_duplicate_holdout_rows = 0;   // "cross_duplicates": {"holdout_rows",
-  uint64_t cross_duplicate_dev_rows = 0;       //  "dev_rows",
-  bool cross_duplicates_moved_to_dev = false;  //  "moved_to_dev"}
+  // "cross_duplicates": {"moved_to_dev"}. How many rows were exact duplicates across the cut is
+  // sealed (SealedFigures, harness/ledger/sealed_figures.h): with the dev rows' multiplicities,
+  // the counts would tell which contents, labels included, the holdout holds.
+  bool cross_duplicates_moved_to_dev = false;
   std::optional<uint64_t> group_violations;    // "violations.group"; null: no group column
   std::optional<uint64_t> time_violations;     // "violations.time"; null: no time column
   uint64_t budget_queries = 0;

@@ -36,11 +36,9 @@ Result<std::unique_ptr<Ledger>> CreateLedger(const std::string& path, std::strin
 
 std::string EncodeFields(const SourceBody& b) {
   // SourceInfo's JSON form belongs to harness/data; the entry adds where the
-  // file was found and the digest lists' blobs.
+  // file was found.
   json j = json::parse(SourceToJson(b.source));
   if (b.absolute_path) j["file"]["absolute_path"] = *b.absolute_path;
-  j["row_digests"] = ToHex(b.row_digests);
-  j["content_digests"] = ToHex(b.content_digests);
   return j.dump();
 }
 
@@ -65,7 +63,6 @@ SourceInfo ReadSource(BodyReader& r) {
     c.name = r.Required<std::string>(Path("columns", i, "name"));
     c.type = ColumnTypeFromName(r.Required<std::string>(Path("columns", i, "type")));
     c.role = ColumnRoleFromName(r.Required<std::string>(Path("columns", i, "role")));
-    c.missing = r.Required<uint64_t>(Path("columns", i, "missing"));
     s.columns.push_back(std::move(c));
   }
   Result<TaskKind> task = ParseTaskKind(r.Required<std::string>("task"));
@@ -73,13 +70,6 @@ SourceInfo ReadSource(BodyReader& r) {
     s.task = *task;
   } else {
     r.Fail("'task' should be classification or regression");
-  }
-  if (s.task == TaskKind::kClassification) {
-    s.target.classes = r.Required<std::map<std::string, uint64_t>>("target.classes");
-  } else {
-    s.target.min = r.Required<double>("target.min");
-    s.target.max = r.Required<double>("target.max");
-    s.target.mean = r.Required<double>("target.mean");
   }
   s.row_digest_format = r.Required<int>("row_digest_format");
   s.merkle_root = r.RequiredDigest("merkle_root");
@@ -95,8 +85,6 @@ Status DecodeBody(const Entry& entry, SourceBody* b) {
   if (r.Present("file.absolute_path")) {
     b->absolute_path = r.Required<std::string>("file.absolute_path");
   }
-  b->row_digests = r.RequiredDigest("row_digests");
-  b->content_digests = r.RequiredDigest("content_digests");
   return r.Finish();
 }
 
@@ -149,20 +137,21 @@ std::string EncodeFields(const SealBody& b) {
        {{"rows", h.rows},
         {"row_set", ToHex(h.row_set)},
         {"sealed_rows", ToHex(h.sealed_rows)},
-        {"feature_digests", ToHex(h.feature_digests)},
+        {"sealed_digests", ToHex(h.sealed_digests)},
+        {"sealed_summary", ToHex(h.sealed_summary)},
         {"cipher", h.cipher},
         {"compression", h.compression},
         {"encoding", h.encoding}}},
       {"dev",
        {{"rows", d.rows},
         {"row_set", ToHex(d.row_set)},
+        {"row_digests", ToHex(d.row_digests)},
+        {"content_digests", ToHex(d.content_digests)},
+        {"summary", json::parse(RowsSummaryToJson(d.summary))},
         {"file",
          {{"path", d.file_path}, {"sha256", ToHex(d.file_sha256)}, {"size", d.file_size}}}}},
       {"key", KeyJson(b.key)},
-      {"cross_duplicates",
-       {{"holdout_rows", b.cross_duplicate_holdout_rows},
-        {"dev_rows", b.cross_duplicate_dev_rows},
-        {"moved_to_dev", b.cross_duplicates_moved_to_dev}}},
+      {"cross_duplicates", {{"moved_to_dev", b.cross_duplicates_moved_to_dev}}},
       {"violations", {{"group", NullOr(b.group_violations)}, {"time", NullOr(b.time_violations)}}},
       {"budget", budget}};
   return j.dump();
@@ -180,19 +169,28 @@ Status DecodeBody(const Entry& entry, SealBody* b) {
   h.rows = r.Required<uint64_t>("holdout.rows");
   h.row_set = r.RequiredDigest("holdout.row_set");
   h.sealed_rows = r.RequiredDigest("holdout.sealed_rows");
-  h.feature_digests = r.RequiredDigest("holdout.feature_digests");
+  h.sealed_digests = r.RequiredDigest("holdout.sealed_digests");
+  h.sealed_summary = r.RequiredDigest("holdout.sealed_summary");
   h.cipher = r.Optional<std::string>("holdout.cipher");
   h.compression = r.Optional<std::string>("holdout.compression");
   h.encoding = r.Optional<std::string>("holdout.encoding", "csv");
   SealBody::Dev& d = b->dev;
   d.rows = r.Required<uint64_t>("dev.rows");
   d.row_set = r.RequiredDigest("dev.row_set");
+  d.row_digests = r.RequiredDigest("dev.row_digests");
+  d.content_digests = r.RequiredDigest("dev.content_digests");
+  if (std::optional<json> summary = r.Nullable<json>("dev.summary", /*required=*/true)) {
+    Result<RowsSummary> parsed = RowsSummaryFromJson(summary->dump(), /*columns=*/0);
+    if (parsed.ok()) {
+      d.summary = std::move(*parsed);
+    } else {
+      r.Fail("'dev.summary': " + parsed.status().message());
+    }
+  }
   d.file_path = r.Required<std::string>("dev.file.path");
   d.file_sha256 = r.RequiredDigest("dev.file.sha256");
   d.file_size = r.Required<uint64_t>("dev.file.size");
   b->key = ReadKey(r);
-  b->cross_duplicate_holdout_rows = r.Optional<uint64_t>("cross_duplicates.holdout_rows");
-  b->cross_duplicate_dev_rows = r.Optional<uint64_t>("cross_duplicates.dev_rows");
   b->cross_duplicates_moved_to_dev = r.Optional<bool>("cross_duplicates.moved_to_dev");
   b->group_violations = r.Nullable<uint64_t>("violations.group");
   b->time_violations = r.Nullable<uint64_t>("violations.time");
@@ -219,9 +217,7 @@ bool operator==(const GenesisBody& a, const GenesisBody& b) {
 }
 
 bool operator==(const SourceBody& a, const SourceBody& b) {
-  return SourceToJson(a.source) == SourceToJson(b.source) &&
-         std::tie(a.absolute_path, a.row_digests, a.content_digests) ==
-             std::tie(b.absolute_path, b.row_digests, b.content_digests);
+  return SourceToJson(a.source) == SourceToJson(b.source) && a.absolute_path == b.absolute_path;
 }
 
 namespace {
@@ -230,15 +226,17 @@ auto Tie(const SealBody& s) {
   const SealBody::Holdout& h = s.holdout;
   const SealBody::Dev& d = s.dev;
   return std::tie(s.source_entry, s.strategy, s.fraction, s.seed, s.requested_holdout, s.split_note,
-                  h.rows, h.row_set, h.sealed_rows, h.feature_digests, h.cipher, h.compression,
-                  h.encoding, d.rows, d.row_set, d.file_path, d.file_sha256, d.file_size, s.key,
-                  s.cross_duplicate_holdout_rows, s.cross_duplicate_dev_rows,
+                  h.rows, h.row_set, h.sealed_rows, h.sealed_digests, h.sealed_summary, h.cipher,
+                  h.compression, h.encoding, d.rows, d.row_set, d.row_digests, d.content_digests,
+                  d.file_path, d.file_sha256, d.file_size, s.key,
                   s.cross_duplicates_moved_to_dev, s.group_violations, s.time_violations,
                   s.budget_queries, s.budget_half_width, s.budget_delta);
 }
 
 }  // namespace
 
-bool operator==(const SealBody& a, const SealBody& b) { return Tie(a) == Tie(b); }
+bool operator==(const SealBody& a, const SealBody& b) {
+  return Tie(a) == Tie(b) && RowsSummaryToJson(a.dev.summary) == RowsSummaryToJson(b.dev.summary);
+}
 
 }  // namespace unseen

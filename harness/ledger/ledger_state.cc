@@ -15,7 +15,11 @@ SealInfo SealInfoOf(const SealBody& b, int64_t seq) {
   s.holdout_set = b.holdout.row_set;
   s.dev_set = b.dev.row_set;
   s.sealed_rows = b.holdout.sealed_rows;
-  s.holdout_feature_digests = b.holdout.feature_digests;
+  s.sealed_digests = b.holdout.sealed_digests;
+  s.sealed_summary = b.holdout.sealed_summary;
+  s.dev_row_digests = b.dev.row_digests;
+  s.dev_content_digests = b.dev.content_digests;
+  s.dev_summary = b.dev.summary;
   s.holdout_encoding = b.holdout.encoding;
   s.key = b.key;
   s.budget_queries = b.budget_queries;
@@ -35,13 +39,20 @@ Status Apply(const Entry& e, bool* have_source, LedgerState* st) {
     UNSEEN_ASSIGN_OR_RETURN(SourceBody b, DecodeEntry<SourceBody>(e));
     st->source = std::move(b.source);
     st->source_abs_path = b.absolute_path ? *b.absolute_path : st->source.path;
-    st->row_digests = b.row_digests;
-    st->content_digests = b.content_digests;
     st->source_seq = e.seq;
     *have_source = true;
   } else if (e.kind == kKindSeal) {
     UNSEEN_ASSIGN_OR_RETURN(SealBody b, DecodeEntry<SealBody>(e));
     st->seal = SealInfoOf(b, e.seq);
+    // The published figures are the development rows'.
+    const RowsSummary& dev = st->seal->dev_summary;
+    if (dev.missing.size() != st->source.columns.size()) {
+      return Status::Corruption("entry " + std::to_string(e.seq) +
+                                " (seal): 'dev.summary.missing' should have one count per "
+                                "column of the source");
+    }
+    for (size_t c = 0; c < dev.missing.size(); ++c) st->source.columns[c].missing = dev.missing[c];
+    st->source.target = dev.target;
   } else if (e.kind == kKindBudget && st->seal) {
     UNSEEN_ASSIGN_OR_RETURN(BudgetBody b, DecodeEntry<BudgetBody>(e));
     st->seal->budget_queries += b.add_queries;

@@ -23,7 +23,13 @@ struct SealInfo {
   double fraction = 0;
   uint64_t seed = 0;
   uint64_t holdout_rows = 0, dev_rows = 0;
-  Digest256 holdout_set{}, dev_set{}, sealed_rows{}, holdout_feature_digests{};
+  Digest256 holdout_set{}, dev_set{}, sealed_rows{};
+  // Sealed with the key (harness/ledger/sealed_figures.h): the holdout rows' digests and the
+  // figures over every source row.
+  Digest256 sealed_digests{}, sealed_summary{};
+  // Plain: the development rows' row and content digests (16 bytes a row, in row order).
+  Digest256 dev_row_digests{}, dev_content_digests{};
+  RowsSummary dev_summary;  // the figures over the development rows, as published
   // How the sealed rows are laid out before compression (harness/data/holdout_rows.h):
   // "columns-1", or "csv" for seals written before the encoding had a name.
   std::string holdout_encoding = "csv";
@@ -40,9 +46,11 @@ struct SealInfo {
 struct LedgerState {
   std::string ledger_id;
   int64_t source_seq = 0;
+  // After the seal, source.target and source.columns[].missing hold the development rows'
+  // figures (seal.dev_summary); the figures over every row are sealed (ReadSourceSummary).
+  // Before the seal they are empty.
   SourceInfo source;
   std::string source_abs_path;
-  Digest256 row_digests{}, content_digests{};
   std::optional<SealInfo> seal;
   uint64_t holdout_queries = 0;  // the queries_spent of every eval entry
   uint64_t budget_raises = 0;    // `budget` entries

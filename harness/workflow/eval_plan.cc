@@ -3,6 +3,8 @@
 #include <set>
 
 #include "harness/bounds/accounting.h"
+#include "harness/ledger/admit.h"
+#include "harness/ledger/keys.h"
 #include "harness/ledger/lineage.h"
 #include "harness/ledger/models.h"
 #include "harness/workflow/eval_steps.h"
@@ -23,9 +25,11 @@ bool SameQuestion(const EvalAnswerRecord& a, const Digest256& digest, const Eval
 }
 
 // An external predictor's identity (command line and attached files'
-// digests) and its taints: attached files holding holdout rows.
+// digests) and its taints: attached files holding holdout rows, found with
+// the key (the holdout's digests are sealed); without it there is no answer
+// to give, and eval refuses later for want of the key.
 Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
-                            const ExternalModelRequest& ext) {
+                            const ExternalModelRequest& ext, const Key* key) {
   UNSEEN_RETURN_IF_ERROR(CheckModelName(ext.name));
   if (!(ext.timeout_seconds > 0 && ext.timeout_seconds <= 86400)) {
     return Status::InvalidArgument("--timeout: expected seconds in (0, 86400]");
@@ -41,7 +45,7 @@ Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
       return Status::InvalidArgument("--attach " + path + ": " + digest.status().message());
     attached.push_back({{"path", path}, {"sha256", ToHex(digest->sha256)}});
     DataRefusal refusal;
-    auto loaded = AdmitData(ledger, st, path, DataPurpose::kNewRows, &refusal);
+    auto loaded = AdmitData(ledger, st, path, DataPurpose::kNewRows, &refusal, key);
     if (!loaded.ok() && loaded.status().IsRefused()) {
       q.taints.push_back("attached file " + path + " holds " +
                          std::to_string(refusal.holdout_rows) + " holdout rows");
@@ -197,7 +201,11 @@ Status PlanQueries(EvalRun* run) {
     run->queries.push_back(std::move(q));
   }
   if (req.external) {
-    UNSEEN_ASSIGN_OR_RETURN(Query q, ExternalQuery(*run->ledger, run->st, *req.external));
+    if (req.key && !run->key) {
+      UNSEEN_ASSIGN_OR_RETURN(run->key, KeyForSeal(*req.key, *run->st.seal, run->st.ledger_id));
+    }
+    UNSEEN_ASSIGN_OR_RETURN(
+        Query q, ExternalQuery(*run->ledger, run->st, *req.external, run->key ? &*run->key : nullptr));
     if (!names.insert(q.name).second) {
       return Status::InvalidArgument("--name " + q.name + ": also named as a frozen model");
     }

@@ -170,8 +170,9 @@ Result<AdmittedData> AdmitFitData(FitRun* run) {
   DataRefusal refusal;
   auto loaded = AdmitData(*run->ledger, run->st, run->data_path, DataPurpose::kDevRows, &refusal);
   if (loaded.ok() || !loaded.status().IsRefused()) return loaded;
+  // Without the key a row is a development row or not: whether a refused row is a holdout
+  // row is not known here, and must not be (docs/row-digests.md).
   json details = {{"data", run->data_path},
-                  {"holdout_rows", refusal.holdout_rows},
                   {"not_dev_rows", refusal.not_dev_rows},
                   {"first_lines", refusal.first_lines},
                   {"model", req.name}};

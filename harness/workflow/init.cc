@@ -11,17 +11,6 @@
 
 namespace unseen {
 
-namespace {
-
-// The digests' bytes back to back, as the blob stores them: a view, not a
-// copy (the list is 16 bytes a row, the largest thing init holds).
-std::string_view Bytes(const std::vector<RowDigest>& digests) {
-  static_assert(sizeof(RowDigest) == 16, "row digests are stored as 16 bytes each");
-  return {reinterpret_cast<const char*>(digests.data()), digests.size() * sizeof(RowDigest)};
-}
-
-}  // namespace
-
 Result<InitReport> InitLedger(const InitRequest& request) {
   struct stat st;
   if (::stat(request.ledger_path.c_str(), &st) == 0) {
@@ -36,27 +25,20 @@ Result<InitReport> InitLedger(const InitRequest& request) {
   genesis.ledger_id = ToHex(id.data(), id.size());
   genesis.row_digest_format = scan.info.row_digest_format;
   UNSEEN_ASSIGN_OR_RETURN(auto ledger, CreateLedger(request.ledger_path, request.actor, genesis));
-  std::vector<BlobRef> blobs;
-  UNSEEN_ASSIGN_OR_RETURN(BlobRef rows, ledger->PutBlob("row-digests", Bytes(scan.row_digests)));
-  blobs.push_back(rows);
+  // Only the Merkle root commits to the rows: no per-row digest and no figure over rows is
+  // stored before the seal (docs/row-digests.md).
   SourceBody source;
   source.source = scan.info;
+  source.source.target = TargetSummary();
+  for (ColumnInfo& c : source.source.columns) c.missing = 0;
   if (char* abs = ::realpath(request.data_path.c_str(), nullptr)) {
     source.absolute_path = std::string(abs);
     std::free(abs);
   }
-  source.row_digests = rows.digest;
-  source.content_digests = rows.digest;  // no id column: the same digests
-  if (!scan.content_digests.empty()) {
-    UNSEEN_ASSIGN_OR_RETURN(BlobRef content,
-                            ledger->PutBlob("content-digests", Bytes(scan.content_digests)));
-    blobs.push_back(content);
-    source.content_digests = content.digest;
-  }
-  UNSEEN_ASSIGN_OR_RETURN(Entry entry, AppendEntry(ledger.get(), request.actor, source, blobs));
+  UNSEEN_ASSIGN_OR_RETURN(Entry entry, AppendEntry(ledger.get(), request.actor, source));
   UNSEEN_RETURN_IF_ERROR(ledger->Commit());
   InitReport report;
-  report.source = std::move(scan.info);
+  report.source = std::move(source.source);
   report.head = entry.hash;
   if (::stat(request.ledger_path.c_str(), &st) == 0) report.ledger_bytes = st.st_size;
   return report;

@@ -19,9 +19,11 @@
 #include "harness/data/csv.h"
 #include "harness/data/digest_index.h"
 #include "harness/data/row_digest.h"
+#include "harness/data/row_summary.h"
 #include "harness/data/source_scan.h"
 #include "harness/ledger/entries.h"
 #include "harness/ledger/holdout_sealer.h"
+#include "harness/ledger/sealed_figures.h"
 #include "storage/staged_file.h"
 #include "storage/row_set.h"
 #include "storage/sealed_blob.h"
@@ -281,6 +283,9 @@ struct SealRun {
   std::string data;  // the source file to read
   SealReport report;
   std::unique_ptr<CsvFile> csv;
+  // Every row's row and content digests and the figures over every row, from a scan of the
+  // file as init made it: init keeps none of them (only the Merkle root the scan must match).
+  SourceScan scan;
   std::future<Result<FileDigest>> file_digest;  // the file's SHA-256, beside the passes
   SplitRequest time_keys;
   std::vector<uint32_t> group_of_row;
@@ -289,8 +294,26 @@ struct SealRun {
   BlobRef holdout_ref;
   std::unique_ptr<StagedFile> dev;
   Pass2Output out;
-  std::array<BlobRef, 3> refs;  // dev row set, sealed rows, feature digests
+  std::array<BlobRef, 3> refs;  // dev row set, sealed rows, sealed holdout digests
+  RowsSummary dev_summary;      // published: the figures over the development rows
+  // Dev row digests, dev content digests (plain), sealed source figures.
+  std::array<BlobRef, 3> digest_refs;
 };
+
+// The digests of `rows` out of a list of one per source row, back to back.
+std::string Gather(const std::vector<RowDigest>& all, const std::vector<uint32_t>& rows) {
+  std::string out;
+  out.reserve(rows.size() * sizeof(RowDigest));
+  for (uint32_t r : rows) out.append(reinterpret_cast<const char*>(all[r].data()), all[r].size());
+  return out;
+}
+
+// The content digests of every row as bytes: the row digests when the source has no id.
+std::string_view ContentBytes(const SourceScan& scan) {
+  const std::vector<RowDigest>& d =
+      scan.content_digests.empty() ? scan.row_digests : scan.content_digests;
+  return {reinterpret_cast<const char*>(d.data()), d.size() * sizeof(RowDigest)};
+}
 
 // Options that can be checked before the ledger is opened.
 Status CheckOptions(const SealRequest& req) {
@@ -345,6 +368,65 @@ Status OpenSource(SealRun* run) {
   return Status::OK();
 }
 
+// The scan init made, made again: every row's digests and the figures over every row. The
+// file must be the one registered, by its SHA-256 and by the Merkle root over its row digests.
+Status ScanRegisteredSource(SealRun* run) {
+  const SourceInfo& src = run->state.source;
+  ScanOptions options;
+  options.csv.delimiter = src.delimiter;
+  options.task = src.task;
+  for (const ColumnInfo& c : src.columns) {
+    if (c.role == ColumnRole::kTarget) options.roles.target = c.name;
+    if (c.role == ColumnRole::kId) options.roles.id = c.name;
+    if (c.role == ColumnRole::kGroup) options.roles.group = c.name;
+    if (c.role == ColumnRole::kTime) options.roles.time = c.name;
+  }
+  auto changed = [&](const Digest256& now) {
+    return Status::InvalidArgument(run->data + ": the file's SHA-256 is " + ToHex(now) +
+                                   " but the source registered at init has " +
+                                   ToHex(src.file_sha256) + "; expected the same file");
+  };
+  Result<SourceScan> scan = ScanSource(run->data, options);
+  if (!scan.ok()) {
+    // A file that init read whole and that no longer reads is a changed file: say so first.
+    Result<FileDigest> file = Sha256File(run->data);
+    if (file.ok() && (file->sha256 != src.file_sha256 || file->size != src.file_size)) {
+      return changed(file->sha256);
+    }
+    return scan.status();
+  }
+  run->scan = std::move(*scan);
+  const SourceInfo& now = run->scan.info;
+  if (now.file_sha256 != src.file_sha256 || now.file_size != src.file_size) {
+    return changed(now.file_sha256);
+  }
+  if (now.merkle_root != src.merkle_root || now.rows != src.rows) {
+    return Status::Corruption(run->data + ": the file has the registered SHA-256 but its rows' "
+                              "Merkle root is " + ToHex(now.merkle_root) + ", not the " +
+                              ToHex(src.merkle_root) + " recorded at init");
+  }
+  return Status::OK();
+}
+
+// The published figures: the development rows' (read from the checked file), and a refusal
+// when a class would have no development row, since listing it would say that only holdout
+// rows carry it (docs/row-digests.md). Nothing is written by then.
+Status SummarizeDev(SealRun* run) {
+  const SourceInfo& src = run->state.source;
+  UNSEEN_ASSIGN_OR_RETURN(run->dev_summary, SummarizeRows(*run->csv, src, run->split.dev));
+  if (src.task != TaskKind::kClassification) return Status::OK();
+  for (const auto& [label, count] : run->scan.info.target.classes) {
+    if (run->dev_summary.target.classes.count(label) == 0) {
+      return Status::InvalidArgument(
+          "class '" + label + "' (" + std::to_string(count) +
+          " rows) would be in the holdout only: a model fitted on the development rows could "
+          "never predict it, and the published class list would reveal it. Use --strategy "
+          "stratified, another --seed or a smaller --fraction");
+    }
+  }
+  return Status::OK();
+}
+
 // InvalidArgument unless the file read is the source registered at init.
 Status CheckSourceFile(SealRun* run) {
   const SourceInfo& src = run->state.source;
@@ -383,11 +465,7 @@ Status SplitRows(SealRun* run) {
 // Exact duplicates across the cut are a leak: the holdout rows whose content digest is also a
 // dev row's.
 Result<std::vector<uint32_t>> FindCrossDuplicates(SealRun* run) {
-  UNSEEN_ASSIGN_OR_RETURN(std::string content, run->ledger->GetBlob(run->state.content_digests));
-  if (content.size() != run->state.source.rows * sizeof(RowDigest)) {
-    return Status::Corruption("the content digest list does not match the source's row count");
-  }
-  return CrossDuplicates(content, run->split, &run->report.cross_duplicate_dev_rows);
+  return CrossDuplicates(ContentBytes(run->scan), run->split, &run->report.cross_duplicate_dev_rows);
 }
 
 // Dropping cross-duplicates changes the split, so it happens before pass 2; then the group and
@@ -422,6 +500,40 @@ void NoteDuplicateLines(SealRun* run) {
   }
 }
 
+// The development rows' digests, plain; the holdout rows' digests and the figures over every
+// row, sealed under the key (harness/ledger/sealed_figures.h).
+Status StoreDigestsAndFigures(SealRun* run) {
+  Ledger* ledger = run->ledger.get();
+  const SourceScan& scan = run->scan;
+  const SplitResult& split = run->split;
+  const Key& key = run->req->key;
+  const std::string& id = run->state.ledger_id;
+  const Digest256& holdout_set = run->holdout_ref.digest;
+  HoldoutDigests held;
+  held.content = Gather(scan.content_digests.empty() ? scan.row_digests : scan.content_digests,
+                        split.holdout);
+  held.feature = std::move(run->out.feature_digests);
+  run->out.feature_digests = std::string();
+  UNSEEN_ASSIGN_OR_RETURN(std::string sealed_digests,
+                          SealHoldoutDigests(key, SealedDigestsAad(id, holdout_set), held));
+  UNSEEN_ASSIGN_OR_RETURN(run->refs[2], ledger->PutBlob("sealed-digests", sealed_digests));
+  UNSEEN_ASSIGN_OR_RETURN(
+      std::string sealed_summary,
+      SealSourceSummary(key, SealedSummaryAad(id, holdout_set),
+                        SealedFigures{SummaryOfSource(scan.info), run->flagged.size(),
+                                      run->report.cross_duplicate_dev_rows}));
+  UNSEEN_ASSIGN_OR_RETURN(run->digest_refs[2], ledger->PutBlob("sealed-summary", sealed_summary));
+  UNSEEN_ASSIGN_OR_RETURN(run->digest_refs[0],
+                          ledger->PutBlob("row-digests", Gather(scan.row_digests, split.dev)));
+  run->digest_refs[1] = run->digest_refs[0];
+  if (!scan.content_digests.empty()) {
+    UNSEEN_ASSIGN_OR_RETURN(
+        run->digest_refs[1],
+        ledger->PutBlob("content-digests", Gather(scan.content_digests, split.dev)));
+  }
+  return Status::OK();
+}
+
 // Pass 2: the dev file written and the holdout sealed, in one read of the file. Without
 // dropping, the cross-duplicates are looked for beside it (it does not touch the ledger),
 // then the blobs are stored while the dev file reaches the disk (fsync) on another thread.
@@ -443,6 +555,7 @@ Status WriteAndStore(SealRun* run) {
   // A file changed since init fails here, whatever the pass made of its bytes.
   UNSEEN_RETURN_IF_ERROR(CheckSourceFile(run));
   UNSEEN_RETURN_IF_ERROR(written);
+  UNSEEN_RETURN_IF_ERROR(SummarizeDev(run));
   std::future<Status> closing = std::async(std::launch::async, [run] {
     return run->dev->Close(&run->report.dev_out_sha256);
   });
@@ -452,10 +565,8 @@ Status WriteAndStore(SealRun* run) {
     }
     Ledger* ledger = run->ledger.get();
     UNSEEN_ASSIGN_OR_RETURN(run->refs[1], ledger->PutBlob("sealed-rows", run->out.sealed));
-    UNSEEN_ASSIGN_OR_RETURN(run->refs[2],
-                            ledger->PutBlob("feature-digests", run->out.feature_digests));
     run->out.sealed = std::string();
-    run->out.feature_digests = std::string();
+    UNSEEN_RETURN_IF_ERROR(StoreDigestsAndFigures(run));
     if (find_later) NoteDuplicateLines(run);
     UNSEEN_ASSIGN_OR_RETURN(
         run->refs[0], ledger->PutBlob("row-set", RowSet::FromSorted(run->split.dev).Serialize()));
@@ -473,7 +584,7 @@ Status RecordSeal(SealRun* run) {
   const SealRequest& req = *run->req;
   const SplitResult& split = run->split;
   const SealReport& report = run->report;
-  const auto& [dev_ref, sealed_ref, feat_ref] = run->refs;
+  const auto& [dev_ref, sealed_ref, digests_ref] = run->refs;
   SealBody body;
   body.source_entry = run->state.source_seq;
   body.strategy = SplitStrategyName(req.strategy);
@@ -481,24 +592,35 @@ Status RecordSeal(SealRun* run) {
   body.seed = req.seed;
   body.requested_holdout = split.requested_holdout;
   body.split_note = split.note;
-  body.holdout = {split.holdout.size(), run->holdout_ref.digest, sealed_ref.digest,
-                  feat_ref.digest,      "AES-256-GCM",           "zstd",
-                  kHoldoutEncodingColumns};
-  body.dev = {split.dev.size(), dev_ref.digest, req.dev_out, report.dev_out_sha256,
-              run->dev->size()};
+  const auto& [dev_rows_ref, dev_content_ref, summary_ref] = run->digest_refs;
+  body.holdout.rows = split.holdout.size();
+  body.holdout.row_set = run->holdout_ref.digest;
+  body.holdout.sealed_rows = sealed_ref.digest;
+  body.holdout.sealed_digests = digests_ref.digest;
+  body.holdout.sealed_summary = summary_ref.digest;
+  body.holdout.cipher = "AES-256-GCM";
+  body.holdout.compression = "zstd";
+  body.holdout.encoding = kHoldoutEncodingColumns;
+  body.dev.rows = split.dev.size();
+  body.dev.row_set = dev_ref.digest;
+  body.dev.file_path = req.dev_out;
+  body.dev.file_sha256 = report.dev_out_sha256;
+  body.dev.file_size = run->dev->size();
+  body.dev.row_digests = dev_rows_ref.digest;
+  body.dev.content_digests = dev_content_ref.digest;
+  body.dev.summary = run->dev_summary;
   body.key = req.key_info;
   body.key.key_check_hex = ToHex(KeyCheck(req.key, run->state.ledger_id));
-  body.cross_duplicate_holdout_rows = report.cross_duplicate_holdout_rows;
-  body.cross_duplicate_dev_rows = report.cross_duplicate_dev_rows;
   body.cross_duplicates_moved_to_dev = report.dropped_cross_duplicates;
   if (report.has_group) body.group_violations = report.group_violations;
   if (report.has_time) body.time_violations = report.time_violations;
   body.budget_queries = req.budget_queries;
   body.budget_half_width = req.budget_half_width;  // recorded only when positive
   body.budget_delta = req.budget_delta;
-  UNSEEN_ASSIGN_OR_RETURN(Entry entry,
-                          AppendEntry(run->ledger.get(), req.actor, body,
-                                      {run->holdout_ref, dev_ref, sealed_ref, feat_ref}));
+  std::vector<BlobRef> blobs = {run->holdout_ref, dev_ref,      sealed_ref,
+                                digests_ref,      dev_rows_ref, summary_ref};
+  if (dev_content_ref.digest != dev_rows_ref.digest) blobs.push_back(dev_content_ref);
+  UNSEEN_ASSIGN_OR_RETURN(Entry entry, AppendEntry(run->ledger.get(), req.actor, body, blobs));
   UNSEEN_RETURN_IF_ERROR(run->ledger->Commit());
   UNSEEN_RETURN_IF_ERROR(run->dev->MoveIntoPlace());
   run->report.head = entry.hash;
@@ -512,6 +634,7 @@ Result<SealReport> SealHoldout(const SealRequest& req) {
   auto run = std::make_unique<SealRun>();
   run->req = &req;
   UNSEEN_RETURN_IF_ERROR(OpenRun(run.get()));
+  UNSEEN_RETURN_IF_ERROR(ScanRegisteredSource(run.get()));
   UNSEEN_RETURN_IF_ERROR(OpenSource(run.get()));
   UNSEEN_RETURN_IF_ERROR(SplitRows(run.get()));
   UNSEEN_RETURN_IF_ERROR(SettleSplit(run.get()));

@@ -719,6 +719,27 @@ TEST_F(ExternalEvalTest, AttachedCopyOfTheHoldoutIsRefused) {
   EXPECT_EQ(History().back()["kind"], "refusal");
 }
 
+// The holdout's digests are sealed (ledger format 2); eval holds the key, opens them and still
+// recognises a single holdout row in an attached file, under a new id, and without its label
+// (by its features).
+TEST_F(ExternalEvalTest, OneHoldoutRowInAnAttachedFileIsFoundWithTheKey) {
+  const auto rows = HoldoutRows();
+  ASSERT_FALSE(rows.empty());
+  const auto& h = rows[rows.size() / 2];
+  WriteFile(dir_.File("labelled.csv"), "id,site,day,a,b,label\nnew-id," + h[1] + "," + h[2] + "," +
+                                           h[3] + "," + h[4] + "," + h[5] + "\n");
+  WriteFile(dir_.File("features.csv"),
+            "site,day,a,b\n" + h[1] + "," + h[2] + "," + h[3] + "," + h[4] + "\n");
+  for (const char* file : {"labelled.csv", "features.csv"}) {
+    SCOPED_TRACE(file);
+    RunResult r = External("cat >/dev/null\n", "--attach " + Q(file));
+    EXPECT_EQ(r.exit_code, 1) << r.err;
+    EXPECT_NE(r.err.find("holds 1 holdout rows"), std::string::npos) << r.err;
+    EXPECT_EQ(History().back()["kind"], "refusal");
+  }
+  EXPECT_EQ(Status()["holdout_queries"], 0);
+}
+
 TEST(BoundCommandTest, ClopperPearsonMatchesScipy) {
   // scipy 1.10.1: beta.ppf(0.05/3/2, 243, 683) and beta.isf(0.05/3/2, 244, 682).
   RunResult r = RunUnseen("bound --json --n 925 --errors 243 --models 3 --delta 0.05");

@@ -117,8 +117,8 @@ TEST_F(TamperTest, BlobDigestChanged) {
 }
 
 TEST_F(TamperTest, BlobKindChanged) {
-  ExpectIntegrityFailure("UPDATE blobs SET kind = 'row-set' WHERE kind = 'feature-digests'",
-                         "(feature-digests): kind changed");
+  ExpectIntegrityFailure("UPDATE blobs SET kind = 'row-set' WHERE kind = 'sealed-digests'",
+                         "(sealed-digests): kind changed");
 }
 
 TEST_F(TamperTest, BlobSizeChanged) {
@@ -128,7 +128,7 @@ TEST_F(TamperTest, BlobSizeChanged) {
 
 TEST_F(TamperTest, BlobDataChanged) {
   for (const char* kind : {"row-digests", "content-digests", "row-set", "sealed-rows",
-                           "feature-digests"}) {
+                           "sealed-digests", "sealed-summary"}) {
     SCOPED_TRACE(kind);
     std::string bytes = ReadFile(dir_.File("l"));
     ExpectIntegrityFailure(std::string("UPDATE blobs SET data = randomblob(length(data)) "
@@ -189,7 +189,8 @@ TEST_F(TamperTest, TruncationHiddenFromSqliteIsCaughtByAPinnedHead) {
   head.erase(head.find_last_not_of('\n') + 1);
   ASSERT_EQ(head.size(), 64u);
   Tamper("DELETE FROM entries WHERE seq = 3; UPDATE sqlite_sequence SET seq = 2; "
-         "DELETE FROM blobs WHERE kind IN ('row-set', 'sealed-rows', 'feature-digests')");
+         "DELETE FROM blobs WHERE kind IN ('row-set', 'sealed-rows', 'sealed-digests', "
+         "'sealed-summary', 'row-digests', 'content-digests')");
   // Without the pin the shortened chain is self-consistent...
   EXPECT_EQ(RunUnseen("verify --ledger " + Q("l")).exit_code, 0);
   // ...with it, the rewrite is caught.

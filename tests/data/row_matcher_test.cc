@@ -59,7 +59,7 @@ class Source {
       std::vector<Row> held;
       for (uint32_t h : holdout_rows_) held.push_back(rows_[h]);
       return MatchTables{Digests(rows_, {kId}), Digests(held, {kId, kTarget}),
-                         RowSet::FromSorted(holdout_rows_)};
+                         RowSet::FromSorted(holdout_rows_), {}};
     };
     std::unique_ptr<RowMatcher> made =
         loaded_by_matcher
@@ -190,7 +190,7 @@ struct Numbered {
       std::vector<Row> h;
       for (uint32_t i : held) h.push_back(rows[i]);
       return MatchTables{Digests(rows, {kId}), Digests(h, {kId, kTarget}),
-                         RowSet::FromSorted(held)};
+                         RowSet::FromSorted(held), {}};
     };
   }
   std::vector<std::string> ids, values, records;

@@ -90,16 +90,14 @@ SourceBody SampleSource() {
   s.file_size = 1234;
   s.delimiter = ';';
   s.rows = 10;
+  // Format 2: no missing counts and no target figures in the source entry.
   s.columns = {{"id", ColumnType::kCategorical, ColumnRole::kId, 0},
-               {"weight", ColumnType::kNumeric, ColumnRole::kFeature, 2},
+               {"weight", ColumnType::kNumeric, ColumnRole::kFeature, 0},
                {"grade", ColumnType::kCategorical, ColumnRole::kTarget, 0}};
   s.task = TaskKind::kClassification;
-  s.target.classes = {{"A", 6}, {"B", 4}};
-  s.row_digest_format = 1;
+  s.row_digest_format = 2;
   s.merkle_root = D(0x02);
   b.absolute_path = "/data/pears.csv";
-  b.row_digests = D(0x03);
-  b.content_digests = D(0x04);
   return b;
 }
 
@@ -111,14 +109,28 @@ SealBody SampleSeal() {
   b.seed = 3;
   b.requested_holdout = 3;
   b.split_note = "a note";
-  b.holdout = {2, D(0x11), D(0x12), D(0x13), "AES-256-GCM", "zstd", "columns-1"};
-  b.dev = {8, D(0x14), "dev.csv", D(0x15), 456};
+  b.holdout.rows = 2;
+  b.holdout.row_set = D(0x11);
+  b.holdout.sealed_rows = D(0x12);
+  b.holdout.sealed_digests = D(0x13);
+  b.holdout.sealed_summary = D(0x16);
+  b.holdout.cipher = "AES-256-GCM";
+  b.holdout.compression = "zstd";
+  b.holdout.encoding = "columns-1";
+  b.dev.rows = 8;
+  b.dev.row_set = D(0x14);
+  b.dev.file_path = "dev.csv";
+  b.dev.file_sha256 = D(0x15);
+  b.dev.file_size = 456;
+  b.dev.row_digests = D(0x17);
+  b.dev.content_digests = D(0x18);
+  b.dev.summary.rows = 8;
+  b.dev.summary.missing = {0, 2, 0};
+  b.dev.summary.target.classes = {{"A", 5}, {"B", 3}};
   b.key.source = "passphrase";
   b.key.scrypt = {16384, 4, 2};
   b.key.salt_hex = "abcd";
   b.key.key_check_hex = "beef";
-  b.cross_duplicate_holdout_rows = 1;
-  b.cross_duplicate_dev_rows = 2;
   b.cross_duplicates_moved_to_dev = true;
   b.group_violations = 4;
   b.time_violations = 5;
@@ -333,9 +345,10 @@ TEST(EntriesTest, OptionalPiecesRoundTripWhenAbsent) {
   SourceBody source = SampleSource();
   source.absolute_path.reset();
   source.source.task = TaskKind::kRegression;
-  source.source.target = {{}, -1.5, 2.5, 0.25};
   ExpectRoundTrip(source);
   SealBody seal = SampleSeal();
+  seal.dev.summary.task = TaskKind::kRegression;  // a range and mean in place of classes
+  seal.dev.summary.target = {{}, -1.5, 2.5, 0.25};
   seal.key = KeyInfo{};
   seal.key.key_check_hex = "beef";
   seal.group_violations.reset();
@@ -369,34 +382,36 @@ TEST(EntriesTest, GenesisFieldsArePinned) {
 }
 
 TEST(EntriesTest, SourceFieldsArePinned) {
+  // Format 2: no digest lists, missing counts or target figures.
   const std::string expected =
-      R"({"columns":[{"missing":0,"name":"id","role":"id","type":"categorical"},{"missing":2,)"
-      R"("name":"weight","role":"feature","type":"numeric"},{"missing":0,"name":"grade",)"
-      R"("role":"target","type":"categorical"}],)"
-      R"("content_digests":"0404040404040404040404040404040404040404040404040404040404040404",)"
+      R"({"columns":[{"name":"id","role":"id","type":"categorical"},{"name":"weight",)"
+      R"("role":"feature","type":"numeric"},{"name":"grade","role":"target",)"
+      R"("type":"categorical"}],)"
       R"("delimiter":";","file":{"absolute_path":"/data/pears.csv","path":"pears.csv",)"
       R"("sha256":"0101010101010101010101010101010101010101010101010101010101010101",)"
       R"("size":1234},)"
       R"("merkle_root":"0202020202020202020202020202020202020202020202020202020202020202",)"
-      R"("row_digest_format":1,)"
-      R"("row_digests":"0303030303030303030303030303030303030303030303030303030303030303",)"
-      R"("rows":10,"target":{"classes":{"A":6,"B":4}},"task":"classification"})";
+      R"("row_digest_format":2,"rows":10,"task":"classification"})";
   EXPECT_EQ(EncodeFields(SampleSource()), expected);
 }
 
 TEST(EntriesTest, SealFieldsArePinned) {
   const std::string expected =
       R"({"budget":{"delta":0.01,"half_width":0.1,"queries":50},)"
-      R"("cross_duplicates":{"dev_rows":2,"holdout_rows":1,"moved_to_dev":true},)"
-      R"("dev":{"file":{"path":"dev.csv",)"
+      R"("cross_duplicates":{"moved_to_dev":true},)"
+      R"("dev":{"content_digests":"1818181818181818181818181818181818181818181818181818181818181818",)"
+      R"("file":{"path":"dev.csv",)"
       R"("sha256":"1515151515151515151515151515151515151515151515151515151515151515",)"
       R"("size":456},)"
+      R"("row_digests":"1717171717171717171717171717171717171717171717171717171717171717",)"
       R"("row_set":"1414141414141414141414141414141414141414141414141414141414141414",)"
-      R"("rows":8},"fraction":0.25,"holdout":{"cipher":"AES-256-GCM","compression":"zstd",)"
+      R"("rows":8,"summary":{"missing":[0,2,0],"rows":8,"target":{"classes":{"A":5,"B":3}}}},)"
+      R"("fraction":0.25,"holdout":{"cipher":"AES-256-GCM","compression":"zstd",)"
       R"("encoding":"columns-1",)"
-      R"("feature_digests":"1313131313131313131313131313131313131313131313131313131313131313",)"
       R"("row_set":"1111111111111111111111111111111111111111111111111111111111111111","rows":2,)"
-      R"("sealed_rows":"1212121212121212121212121212121212121212121212121212121212121212"},)"
+      R"("sealed_digests":"1313131313131313131313131313131313131313131313131313131313131313",)"
+      R"("sealed_rows":"1212121212121212121212121212121212121212121212121212121212121212",)"
+      R"("sealed_summary":"1616161616161616161616161616161616161616161616161616161616161616"},)"
       R"("key":{"key_check":"beef","salt":"abcd","scrypt":{"N":16384,"p":2,"r":4},)"
       R"("source":"passphrase"},"requested_holdout":3,"seed":3,"source_entry":2,)"
       R"("split_note":"a note","strategy":"random","violations":{"group":4,"time":5}})";
@@ -579,22 +594,20 @@ TEST(EntriesTest, MalformedGenesis) {
 }
 
 TEST(EntriesTest, MalformedSource) {
-  ExpectCorrupt(SampleSource(), [](json& j) { j.erase("row_digests"); },
-                "key 'row_digests' is missing");
+  // Format 2 has no digest lists, missing counts or target figures here; the keys it has are
+  // checked as before.
+  ExpectCorrupt(SampleSource(), [](json& j) { j.erase("merkle_root"); },
+                "key 'merkle_root' is missing");
   ExpectCorrupt(SampleSource(), [](json& j) { j["file"].erase("sha256"); },
                 "key 'file.sha256' is missing");
   ExpectCorrupt(SampleSource(), [](json& j) { j["rows"] = "10"; },
                 "'rows' should be an unsigned integer");
-  ExpectCorrupt(SampleSource(), [](json& j) { j["columns"][2]["missing"] = -1; },
-                "'columns.2.missing' should be an unsigned integer");
-  ExpectCorrupt(SampleSource(), [](json& j) { j["target"]["classes"]["A"] = "6"; },
-                "'target.classes' should be an object");
+  ExpectCorrupt(SampleSource(), [](json& j) { j["columns"][2]["role"] = 1; },
+                "'columns.2.role' should be text");
   ExpectCorrupt(SampleSource(), [](json& j) { j["task"] = "ranking"; },
                 "'task' should be classification or regression");
   ExpectCorrupt(SampleSource(), [](json& j) { j["file"]["absolute_path"] = 1; },
                 "'file.absolute_path' should be text");
-  ExpectCorrupt(SampleSource(), [](json& j) { j["content_digests"] = "xyz"; },
-                "'content_digests' is not a SHA-256 digest");
   ExpectCorrupt(SampleSource(), [](json& j) { j["merkle_root"] = std::string(64, 'g'); },
                 "hex digit");
 }
@@ -611,6 +624,16 @@ TEST(EntriesTest, MalformedSeal) {
   ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"] = 8; }, "'dev' should be an object");
   ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"]["file"]["sha256"] = "00"; },
                 "'dev.file.sha256' is not a SHA-256 digest");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"].erase("row_digests"); },
+                "key 'dev.row_digests' is missing");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["holdout"]["sealed_digests"] = "xyz"; },
+                "'holdout.sealed_digests' is not a SHA-256 digest");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["holdout"].erase("sealed_summary"); },
+                "key 'holdout.sealed_summary' is missing");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"].erase("summary"); },
+                "key 'dev.summary' is missing");
+  ExpectCorrupt(SampleSeal(), [](json& j) { j["dev"]["summary"]["missing"] = "none"; },
+                "'dev.summary': row summary: 'missing'");
 }
 
 TEST(EntriesTest, SealDefaultsKeepTheirOldValues) {
