@@ -332,11 +332,13 @@ std::vector<Protection> PredictorSandbox::Report(uint32_t applied) const {
   out.push_back({"directory", (applied & kAppliedDirectory) != 0,
                  "a fresh private directory as its working directory, removed afterwards"});
   const bool seccomp = (applied & kAppliedSeccomp) != 0;
+  const std::string no_seccomp =
+      seccomp_missing_.empty() ? "the kernel refused the seccomp filter" : seccomp_missing_;
   out.push_back({"process-group", seccomp,
                  seccomp ? "its own process group, killed as a whole; setsid and setpgid denied "
                            "(seccomp)"
-                         : "its own process group, killed as a whole; not enforced: a process may "
-                           "leave it with setsid (" + seccomp_missing_ + ")"});
+                         : "not enforced: a process may leave its process group with setsid (" +
+                               no_seccomp + "); the group is still killed as a whole"});
   out.push_back({"capabilities", (applied & kAppliedCapabilities) != 0,
                  (applied & kAppliedCapabilities) != 0
                      ? "none held, none regained on exec"
@@ -360,7 +362,7 @@ std::vector<Protection> PredictorSandbox::Report(uint32_t applied) const {
   if ((applied & kAppliedLandlockNet) != 0) net += "; TCP bind and connect denied (Landlock)";
   if ((applied & (kAppliedNetNamespace | kAppliedSeccomp)) == 0) {
     out.push_back({"network", false,
-                   "not enforced: no network namespace and no seccomp (" + seccomp_missing_ + ")" +
+                   "not enforced: no network namespace and no seccomp (" + no_seccomp + ")" +
                        net});
   } else {
     out.push_back({"network", true, net});
