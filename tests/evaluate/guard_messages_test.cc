@@ -12,6 +12,7 @@
 #include <string>
 
 #include "harness/pipeline/frame.h"
+#include "harness/pipeline/learner.h"
 #include "harness/pipeline/transform.h"
 
 namespace unseen {
@@ -73,6 +74,41 @@ TEST(ValueFreeErrorTest, CategoricalColumnAtTheLearner) {
   Status s = ValueFreeError(m.status(), Source());
   ExpectValueFree(s, "magenta-12");
   EXPECT_NE(s.message().find("column 'colour' is categorical"), std::string::npos) << s.message();
+}
+
+TEST(ValueFreeErrorTest, MissingValueAtPcaNamesTheColumn) {
+  auto pca = MakeTransform("pca", {{"components", 1}});
+  ASSERT_TRUE(pca.ok());
+  Frame train;
+  train.columns = {FrameColumn{"weight", true, {1.0, 2.0, 4.0}, {}}};
+  ASSERT_TRUE((*pca)->Fit(train, Eigen::VectorXd::Zero(3)).ok());
+  Frame holdout;
+  holdout.columns = {FrameColumn{"weight", true, {7.25, std::nan("")}, {}}};
+  Result<Frame> applied = (*pca)->Apply(holdout);
+  ASSERT_FALSE(applied.ok());
+  Status s = ValueFreeError(applied.status(), Source());
+  ExpectValueFree(s, "7.25");
+  EXPECT_NE(s.message().find("column 'weight' holds a missing value"), std::string::npos)
+      << s.message();
+}
+
+TEST(ValueFreeErrorTest, InfiniteFeatureAtTheLearnerNamesTheColumn) {
+  auto learner = MakeLearner("linear", nlohmann::json::object());
+  ASSERT_TRUE(learner.ok());
+  Eigen::MatrixXd x(3, 1);
+  x << 1, 2, 3;
+  Eigen::VectorXd y(3);
+  y << 2, 4, 6;
+  ASSERT_TRUE((*learner)->Fit(x, y, LearnTask::kRegression, 0, {"weight"}).ok());
+  Eigen::MatrixXd holdout(2, 1);
+  holdout << 5.5, std::numeric_limits<double>::infinity();
+  Result<Eigen::VectorXd> p = (*learner)->Predict(holdout);
+  ASSERT_FALSE(p.ok());
+  Status s = ValueFreeError(p.status(), Source());
+  ExpectValueFree(s, "inf");
+  EXPECT_NE(s.message().find("column 'weight' holds a missing or non-finite value"),
+            std::string::npos)
+      << s.message();
 }
 
 TEST(ValueFreeErrorTest, NonFiniteFeatureOfADerivedColumnIsNotNamed) {
