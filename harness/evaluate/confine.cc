@@ -90,9 +90,11 @@ class RulesetBuilder {
   RulesetBuilder(int fd, int abi, std::vector<std::string> kept, std::vector<FileId> kept_ids)
       : fd_(fd), abi_(abi), kept_(std::move(kept)), kept_ids_(std::move(kept_ids)) {}
 
-  void Tree(const std::string& path, uint64_t access) {
+  void Tree(const std::string& name, uint64_t access) {
+    // By its real path: /bin may be a link to /usr/bin, and a rule follows links.
+    const std::string path = Canonical(name);
     struct stat s;
-    if (lstat(path.c_str(), &s) != 0) return;
+    if (path.empty() || stat(path.c_str(), &s) != 0) return;
     if (SameFile(s, kept_ids_)) return;
     bool holds_kept = false;
     for (const std::string& k : kept_) holds_kept |= IsBeneath(k, path);
