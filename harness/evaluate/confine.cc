@@ -102,6 +102,9 @@ class RulesetBuilder {
       Add(path, S_ISDIR(s.st_mode) ? access : (access & kFileRead));
       return;
     }
+    // A link to a directory that holds a kept-out file (/bin -> /usr/bin, /usr/bin/X11 -> .):
+    // not granted; the directory is split where it really is, once.
+    if (path != name) return;
     DIR* d = opendir(path.c_str());
     if (d == nullptr) return;
     while (dirent* e = readdir(d)) {

@@ -140,7 +140,25 @@ TEST_F(PredictorSandboxTest, AKeptOutFileInsideASystemDirectoryStaysOutOfReach) 
   ChildRun hostname = RunIn(*sb, "cat /etc/hostname >/dev/null 2>&1");
   ChildRun passwd = RunIn(*sb, "cat /etc/passwd >/dev/null");
   EXPECT_EQ(passwd.exit_code, 0);
-  if (hostname.applied & kAppliedLandlock) EXPECT_NE(hostname.exit_code, 0);
+  if (hostname.applied & kAppliedLandlock) {
+    EXPECT_NE(hostname.exit_code, 0);
+  }
+}
+
+TEST_F(PredictorSandboxTest, AKeptOutFileIsNotReachableThroughALinkedSystemDirectory) {
+  // On a merged /usr, /bin is a link to /usr/bin: granting /bin must not grant /usr/bin whole.
+  std::error_code ec;
+  if (std::filesystem::canonical("/bin/tac", ec) != "/usr/bin/tac") {
+    GTEST_SKIP() << "/bin is not a link to /usr/bin here";
+  }
+  options_.keep_out = {"/usr/bin/tac"};
+  auto sb = Prepare();
+  ChildRun via_link = RunIn(*sb, "cat /bin/tac >/dev/null 2>&1");
+  ChildRun other = RunIn(*sb, "cat /bin/cat >/dev/null");
+  EXPECT_EQ(other.exit_code, 0);
+  if (via_link.applied & kAppliedLandlock) {
+    EXPECT_NE(via_link.exit_code, 0);
+  }
 }
 
 TEST_F(PredictorSandboxTest, NoSocketsAndNoLeavingTheGroupWhereSeccompHolds) {
