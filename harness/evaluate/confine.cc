@@ -46,8 +46,8 @@ constexpr uint64_t kFileRead = LANDLOCK_ACCESS_FS_READ_FILE | LANDLOCK_ACCESS_FS
 constexpr uint64_t kTreeRead = kFileRead | LANDLOCK_ACCESS_FS_READ_DIR;
 
 // Read and execute: the system's programs, libraries and configuration.
-const char* const kSystemDirs[] = {"/usr", "/bin", "/sbin", "/lib", "/lib32", "/lib64", "/libx32",
-                                   "/etc", "/opt"};
+const char* const kSystemDirs[] = {"/usr",   "/bin",    "/sbin", "/lib", "/lib32",
+                                   "/lib64", "/libx32", "/etc",  "/opt"};
 const char* const kDevices[] = {"/dev/zero", "/dev/urandom", "/dev/random", "/dev/full"};
 
 uint64_t FsAccess(int abi) {
@@ -142,16 +142,29 @@ std::vector<uint8_t> SeccompProgram(std::string* missing) {
   int rc = seccomp_rule_add(ctx, SCMP_ACT_ERRNO(EACCES), SCMP_SYS(socket), 0);
   // Leaving the process group (a grandchild that outlives the kill), and the
   // calls through which a process reaches past its confinement.
-  const int denied[] = {SCMP_SYS(setsid),        SCMP_SYS(setpgid),        SCMP_SYS(io_uring_setup),
-                        SCMP_SYS(ptrace),        SCMP_SYS(bpf),            SCMP_SYS(perf_event_open),
-                        SCMP_SYS(init_module),   SCMP_SYS(finit_module),   SCMP_SYS(delete_module),
-                        SCMP_SYS(kexec_load),    SCMP_SYS(kexec_file_load), SCMP_SYS(mount),
-                        SCMP_SYS(umount2),       SCMP_SYS(pivot_root),     SCMP_SYS(unshare),
-                        SCMP_SYS(setns),         SCMP_SYS(open_by_handle_at),
-                        SCMP_SYS(process_vm_readv), SCMP_SYS(process_vm_writev)};
+  const int denied[] = {SCMP_SYS(setsid),
+                        SCMP_SYS(setpgid),
+                        SCMP_SYS(io_uring_setup),
+                        SCMP_SYS(ptrace),
+                        SCMP_SYS(bpf),
+                        SCMP_SYS(perf_event_open),
+                        SCMP_SYS(init_module),
+                        SCMP_SYS(finit_module),
+                        SCMP_SYS(delete_module),
+                        SCMP_SYS(kexec_load),
+                        SCMP_SYS(kexec_file_load),
+                        SCMP_SYS(mount),
+                        SCMP_SYS(umount2),
+                        SCMP_SYS(pivot_root),
+                        SCMP_SYS(unshare),
+                        SCMP_SYS(setns),
+                        SCMP_SYS(open_by_handle_at),
+                        SCMP_SYS(process_vm_readv),
+                        SCMP_SYS(process_vm_writev)};
   for (int sys : denied) rc = rc != 0 ? rc : seccomp_rule_add(ctx, SCMP_ACT_ERRNO(EPERM), sys, 0);
   std::vector<uint8_t> program;
-  int fd = rc == 0 ? static_cast<int>(syscall(SYS_memfd_create, "unseen-seccomp", MFD_CLOEXEC)) : -1;
+  int fd =
+      rc == 0 ? static_cast<int>(syscall(SYS_memfd_create, "unseen-seccomp", MFD_CLOEXEC)) : -1;
   if (fd >= 0 && seccomp_export_bpf(ctx, fd) == 0 && lseek(fd, 0, SEEK_SET) == 0) {
     uint8_t buf[4096];
     ssize_t n;
@@ -198,8 +211,8 @@ void RemoveTree(const std::string& dir) {
 Result<std::unique_ptr<PredictorSandbox>> PredictorSandbox::Prepare(const SandboxOptions& options) {
   std::unique_ptr<PredictorSandbox> sb(new PredictorSandbox());
   const char* tmp = std::getenv("TMPDIR");
-  std::string pattern = std::string(tmp != nullptr && *tmp != '\0' ? tmp : "/tmp") +
-                        "/unseen-predictor-XXXXXX";
+  std::string pattern =
+      std::string(tmp != nullptr && *tmp != '\0' ? tmp : "/tmp") + "/unseen-predictor-XXXXXX";
   if (mkdtemp(pattern.data()) == nullptr) {
     return Status::IOError("cannot make the predictor's private directory in " + pattern + ": " +
                            std::strerror(errno));
@@ -246,8 +259,8 @@ Result<std::unique_ptr<PredictorSandbox>> PredictorSandbox::Prepare(const Sandbo
   // Landlock.
   long abi = syscall(SYS_landlock_create_ruleset, nullptr, 0, LANDLOCK_CREATE_RULESET_VERSION);
   if (abi < 1) {
-    sb->landlock_missing_ = std::string("Landlock is not available on this kernel (") +
-                            std::strerror(errno) + ")";
+    sb->landlock_missing_ =
+        std::string("Landlock is not available on this kernel (") + std::strerror(errno) + ")";
   } else {
     sb->landlock_abi_ = static_cast<int>(abi);
     RulesetAttr attr;
@@ -271,8 +284,8 @@ Result<std::unique_ptr<PredictorSandbox>> PredictorSandbox::Prepare(const Sandbo
       RulesetBuilder rules(fd, sb->landlock_abi_, kept, kept_ids);
       for (const char* d : kSystemDirs) rules.Tree(d, kTreeRead);
       for (const char* d : kDevices) rules.Add(d, LANDLOCK_ACCESS_FS_READ_FILE);
-      rules.Add("/dev/null", LANDLOCK_ACCESS_FS_READ_FILE | LANDLOCK_ACCESS_FS_WRITE_FILE |
-                                 kFsTruncate);
+      rules.Add("/dev/null",
+                LANDLOCK_ACCESS_FS_READ_FILE | LANDLOCK_ACCESS_FS_WRITE_FILE | kFsTruncate);
       for (const std::string& g : grants) rules.Add(g, kFileRead);
       rules.Add(sb->dir_, FsAccess(sb->landlock_abi_));
     }
@@ -356,9 +369,9 @@ std::vector<Protection> PredictorSandbox::Report(uint32_t applied) const {
     out.push_back({"filesystem", true, how});
   } else {
     out.push_back({"filesystem", false,
-                   "not enforced: " + (landlock_missing_.empty()
-                                           ? std::string("landlock_restrict_self failed")
-                                           : landlock_missing_) +
+                   "not enforced: " +
+                       (landlock_missing_.empty() ? std::string("landlock_restrict_self failed")
+                                                  : landlock_missing_) +
                        "; the predictor can read and write whatever its user can"});
   }
   std::string net;
@@ -367,8 +380,7 @@ std::vector<Protection> PredictorSandbox::Report(uint32_t applied) const {
   if ((applied & kAppliedLandlockNet) != 0) net += "; TCP bind and connect denied (Landlock)";
   if ((applied & (kAppliedNetNamespace | kAppliedSeccomp)) == 0) {
     out.push_back({"network", false,
-                   "not enforced: no network namespace and no seccomp (" + no_seccomp + ")" +
-                       net});
+                   "not enforced: no network namespace and no seccomp (" + no_seccomp + ")" + net});
   } else {
     out.push_back({"network", true, net});
   }

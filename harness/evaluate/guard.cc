@@ -49,8 +49,11 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   std::unique_ptr<HoldoutGuard> g(new HoldoutGuard());
   g->ledger_path_ = ledger.path();
   // The registered file, wherever init was run: kept out of an external predictor's reach.
-  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<SourceBody>> sources, ReadEntries<SourceBody>(ledger));
-  for (const auto& s : sources) g->source_files_.push_back(s.body.absolute_path.value_or(s.body.source.path));
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<SourceBody>> sources,
+                          ReadEntries<SourceBody>(ledger));
+  for (const auto& s : sources) {
+    g->source_files_.push_back(s.body.absolute_path.value_or(s.body.source.path));
+  }
   g->source_ = src;
   std::vector<size_t> feature_cols;
   for (size_t c = 0; c < src.columns.size(); ++c) {

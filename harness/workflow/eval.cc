@@ -137,7 +137,8 @@ Status RecordAnswers(EvalRun* run) {
     names += (names.empty() ? "" : ", ") + q.name;
   }
   if (req.external) {
-    UNSEEN_ASSIGN_OR_RETURN(body.external, ExternalRecord(*run, *req.external, run->queries.back()));
+    UNSEEN_ASSIGN_OR_RETURN(body.external,
+                            ExternalRecord(*run, *req.external, run->queries.back()));
   }
   if (req.thresholdout && run->new_queries > 0) {
     UNSEEN_ASSIGN_OR_RETURN(body.thresholdout, SealThresholdoutState(run));

@@ -33,12 +33,12 @@ class HoldoutErrorTest : public ::testing::Test {
     }
     WriteFile(dir_.File("d.csv"), csv);
     ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
-    RunResult init = RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
-                               " --target " + target + " --id id --time day");
+    RunResult init = RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") + " --target " +
+                               target + " --id id --time day");
     ASSERT_EQ(init.exit_code, 0) << init.err;
-    RunResult seal = RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
-                               " --strategy time --fraction 0.25 --seed 1 --dev-out " +
-                               Q("dev.csv"));
+    RunResult seal =
+        RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                  " --strategy time --fraction 0.25 --seed 1 --dev-out " + Q("dev.csv"));
     ASSERT_EQ(seal.exit_code, 0) << seal.err;
   }
   void Fit(const std::string& spec) {
@@ -52,8 +52,7 @@ class HoldoutErrorTest : public ::testing::Test {
     const std::string before = ReadFile(dir_.File("l"));
     RunResult r = RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("k") + " m");
     EXPECT_EQ(r.exit_code, 2) << r.out << r.err;
-    EXPECT_NE(r.err.find("model 'm': cannot be applied to the holdout: " + says),
-              std::string::npos)
+    EXPECT_NE(r.err.find("model 'm': cannot be applied to the holdout: " + says), std::string::npos)
         << r.err;
     EXPECT_EQ((r.out + r.err).find(secret), std::string::npos) << r.out << r.err;
     EXPECT_EQ(r.err.find(" row "), std::string::npos) << r.err;

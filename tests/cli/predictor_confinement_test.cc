@@ -46,9 +46,9 @@ class PredictorConfinementTest : public ::testing::Test {
                         " --target label --id id --group site --time day")
                   .exit_code,
               0);
-    RunResult seal = RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
-                               " --strategy random --fraction 0.25 --seed 1 --dev-out " +
-                               Q("dev.csv"));
+    RunResult seal =
+        RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                  " --strategy random --fraction 0.25 --seed 1 --dev-out " + Q("dev.csv"));
     ASSERT_EQ(seal.exit_code, 0) << seal.err;
     // Private directories are made here, so that the test can see that they are removed.
     std::filesystem::create_directory(dir_.File("tmp"));
@@ -93,8 +93,7 @@ class PredictorConfinementTest : public ::testing::Test {
   // A probe that succeeds is a leak unless the protection is reported missing.
   void ExpectDeniedOrReported(const RunResult& r, const std::string& protection) {
     if (Enforced(r, protection)) {
-      EXPECT_EQ(r.exit_code, 0) << "the probe got through " << protection << ": " << r.out
-                                << r.err;
+      EXPECT_EQ(r.exit_code, 0) << "the probe got through " << protection << ": " << r.out << r.err;
     } else {
       EXPECT_EQ(r.exit_code, 2) << r.out;
       EXPECT_NE(r.err.find("not confined by: "), std::string::npos) << r.err;
@@ -127,8 +126,9 @@ TEST_F(PredictorConfinementTest, ReportsEveryProtectionInItsOutputAndItsEntry) {
   // The text form names each protection too, with a warning for what did not hold.
   // (another script: the same one would be a repeat, answered without running it)
   WriteFile(dir_.File("plain2.sh"), kAnswer);
-  RunResult text = RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("k") +
-                             " --name plain2 --command " + ShellQuote("sh " + dir_.File("plain2.sh")));
+  RunResult text =
+      RunUnseen("eval --ledger " + Q("l") + " --key-file " + Q("k") + " --name plain2 --command " +
+                ShellQuote("sh " + dir_.File("plain2.sh")));
   ASSERT_EQ(text.exit_code, 0) << text.err;
   for (const auto& [name, enforced] : recorded) {
     if (!enforced) continue;
@@ -144,11 +144,13 @@ TEST_F(PredictorConfinementTest, StartsInAnEmptyPrivateDirectoryWithoutOurVariab
       "env | grep -q UNSEEN_ && exit 1\n"
       "env | grep -q never-shown && exit 1\n"
       "[ \"$HOME\" = \"$(pwd)\" ] && [ \"$TMPDIR\" = \"$(pwd)\" ] || exit 1\n"
-      "case \"$(pwd)\" in " + dir_.File("tmp") + "/unseen-predictor-*) ;; *) exit 1;; esac\n"
-      "[ -z \"$(ls -A)\" ] || exit 1\n"
-      // Any descriptor beyond stdin, stdout and stderr: the ledger's database among them.
-      "perl -e 'for my $fd (3..1023) { exit 1 if open(my $h, \"<&=\", $fd) }' || exit 1\n"
-      "echo kept > mine.txt && [ \"$(cat mine.txt)\" = kept ] || exit 1\n" +
+      "case \"$(pwd)\" in " +
+          dir_.File("tmp") +
+          "/unseen-predictor-*) ;; *) exit 1;; esac\n"
+          "[ -z \"$(ls -A)\" ] || exit 1\n"
+          // Any descriptor beyond stdin, stdout and stderr: the ledger's database among them.
+          "perl -e 'for my $fd (3..1023) { exit 1 if open(my $h, \"<&=\", $fd) }' || exit 1\n"
+          "echo kept > mine.txt && [ \"$(cat mine.txt)\" = kept ] || exit 1\n" +
           std::string(kAnswer));
   unsetenv("UNSEEN_PASSPHRASE");
   EXPECT_EQ(r.exit_code, 0) << r.out << r.err;
@@ -166,15 +168,18 @@ TEST_F(PredictorConfinementTest, CannotFindTheKeyPathInAnyCommandLine) {
                           "cat /proc/$PPID/cmdline >/dev/null 2>&1 && exit 1\n"
                           "p=$PPID\n"
                           "while [ \"$p\" -gt 1 ] 2>/dev/null; do\n"
-                          "  tr '\\0' ' ' < /proc/$p/cmdline 2>/dev/null | grep -q -F " + Q("k") +
+                          "  tr '\\0' ' ' < /proc/$p/cmdline 2>/dev/null | grep -q -F " +
+                              Q("k") +
                               " && exit 1\n"
-                          "  p=$(awk '{print $4}' /proc/$p/stat 2>/dev/null)\n"
-                          "done\n" + kAnswer);
+                              "  p=$(awk '{print $4}' /proc/$p/stat 2>/dev/null)\n"
+                              "done\n" +
+                              kAnswer);
   ExpectDeniedOrReported(r, "filesystem");
 }
 
 TEST_F(PredictorConfinementTest, CannotReadTheLedgerOrTheSource) {
-  RunResult ledger = Predictor("ledger", "cat " + Q("l") + " >/dev/null 2>&1 && exit 1\n" + kAnswer);
+  RunResult ledger =
+      Predictor("ledger", "cat " + Q("l") + " >/dev/null 2>&1 && exit 1\n" + kAnswer);
   ExpectDeniedOrReported(ledger, "filesystem");
   RunResult source =
       Predictor("source", "cat " + Q("d.csv") + " >/dev/null 2>&1 && exit 1\n" + kAnswer);
@@ -189,15 +194,15 @@ TEST_F(PredictorConfinementTest, CannotReadTheLedgerOrTheSource) {
 
 TEST_F(PredictorConfinementTest, CanReadItsAttachedFilesAndSystemProgramsOnly) {
   WriteFile(dir_.File("weights.txt"), "0.5\n");
-  RunResult r = Predictor("weights",
-                          "[ \"$(cat " + Q("weights.txt") + ")\" = 0.5 ] || exit 1\n" + kAnswer,
-                          "--attach " + Q("weights.txt"));
+  RunResult r =
+      Predictor("weights", "[ \"$(cat " + Q("weights.txt") + ")\" = 0.5 ] || exit 1\n" + kAnswer,
+                "--attach " + Q("weights.txt"));
   EXPECT_EQ(r.exit_code, 0) << r.out << r.err;
 }
 
 TEST_F(PredictorConfinementTest, CannotWriteOutsideItsDirectory) {
-  RunResult r = Predictor("write", "echo x > " + Q("outside.txt") + " 2>/dev/null && exit 1\n" +
-                                       kAnswer);
+  RunResult r =
+      Predictor("write", "echo x > " + Q("outside.txt") + " 2>/dev/null && exit 1\n" + kAnswer);
   ExpectDeniedOrReported(r, "filesystem");
   if (Recorded().at("filesystem")) {
     EXPECT_FALSE(std::filesystem::exists(dir_.File("outside.txt")));
@@ -216,22 +221,24 @@ TEST_F(PredictorConfinementTest, CannotOpenTcpOrUdpSockets) {
   socklen_t len = sizeof addr;
   ASSERT_EQ(getsockname(listener, reinterpret_cast<sockaddr*>(&addr), &len), 0);
   const std::string port = std::to_string(ntohs(addr.sin_port));
-  RunResult tcp = Predictor(
-      "tcp", "perl -MIO::Socket::INET -e 'exit(IO::Socket::INET->new(PeerAddr => "
-             "\"127.0.0.1:" + port + "\", Proto => \"tcp\") ? 0 : 1)' && exit 1\n" + kAnswer);
+  RunResult tcp = Predictor("tcp",
+                            "perl -MIO::Socket::INET -e 'exit(IO::Socket::INET->new(PeerAddr => "
+                            "\"127.0.0.1:" +
+                                port + "\", Proto => \"tcp\") ? 0 : 1)' && exit 1\n" + kAnswer);
   ExpectDeniedOrReported(tcp, "network");
   RunResult udp = Predictor(
-      "udp", "perl -e 'use Socket; exit(socket(my $s, PF_INET, SOCK_DGRAM, 0) ? 0 : 1)' && exit 1\n"
-             "perl -e 'use Socket; exit(socket(my $s, PF_INET6, SOCK_DGRAM, 0) ? 0 : 1)' && exit 1\n" +
-                 std::string(kAnswer));
+      "udp",
+      "perl -e 'use Socket; exit(socket(my $s, PF_INET, SOCK_DGRAM, 0) ? 0 : 1)' && exit 1\n"
+      "perl -e 'use Socket; exit(socket(my $s, PF_INET6, SOCK_DGRAM, 0) ? 0 : 1)' && exit 1\n" +
+          std::string(kAnswer));
   ExpectDeniedOrReported(udp, "network");
   close(listener);
 }
 
 TEST_F(PredictorConfinementTest, FeaturesWrittenToDiskDoNotOutliveAFailedRun) {
   const std::string before = ReadFile(dir_.File("l"));
-  RunResult r = Predictor("leak", "cat > mine.csv; cat mine.csv > " + Q("leak.csv") +
-                                      " 2>/dev/null; exit 3\n");
+  RunResult r = Predictor(
+      "leak", "cat > mine.csv; cat mine.csv > " + Q("leak.csv") + " 2>/dev/null; exit 3\n");
   EXPECT_EQ(r.exit_code, 2);
   const std::string message = r.err;
   EXPECT_EQ(message.find("nothing was revealed"), std::string::npos) << message;
@@ -302,8 +309,8 @@ TEST_F(PredictorConfinementTest, AGrandchildDoesNotOutliveAnAnsweringPredictor) 
 }
 
 TEST_F(PredictorConfinementTest, AGrandchildCannotLeaveTheProcessGroup) {
-  RunResult r = Predictor("escapes", std::string("setsid sleep 33.25 >/dev/null 2>&1 &\n") +
-                                         "sleep 0.2\n" + kAnswer);
+  RunResult r = Predictor(
+      "escapes", std::string("setsid sleep 33.25 >/dev/null 2>&1 &\n") + "sleep 0.2\n" + kAnswer);
   EXPECT_EQ(r.exit_code, 0) << r.out << r.err;
   const bool escaped = StillRunning("33.25");
   if (Recorded().at("process-group")) {

@@ -83,8 +83,9 @@ TEST_F(PredictorSandboxTest, EveryRunGetsAFreshEmptyDirectoryRemovedAfterwards) 
   struct stat s;
   ASSERT_EQ(stat(dir.c_str(), &s), 0);
   EXPECT_EQ(s.st_mode & 0777, 0700u);
-  ChildRun r = RunIn(*a, "[ \"$(pwd)\" = \"$HOME\" ] && [ \"$TMPDIR\" = \"$HOME\" ] && "
-                         "mkdir -p d/e && echo x > d/e/f && chmod 000 d/e d");
+  ChildRun r = RunIn(*a,
+                     "[ \"$(pwd)\" = \"$HOME\" ] && [ \"$TMPDIR\" = \"$HOME\" ] && "
+                     "mkdir -p d/e && echo x > d/e/f && chmod 000 d/e d");
   EXPECT_EQ(r.exit_code, 0);
   EXPECT_TRUE(r.applied & kAppliedDirectory);
   a.reset();
@@ -163,7 +164,8 @@ TEST_F(PredictorSandboxTest, AKeptOutFileIsNotReachableThroughALinkedSystemDirec
 
 TEST_F(PredictorSandboxTest, NoSocketsAndNoLeavingTheGroupWhereSeccompHolds) {
   auto sb = Prepare();
-  ChildRun udp = RunIn(*sb, "perl -e 'use Socket; exit(socket(my $s, PF_INET, SOCK_DGRAM, 0) ? 0 : 1)'");
+  ChildRun udp =
+      RunIn(*sb, "perl -e 'use Socket; exit(socket(my $s, PF_INET, SOCK_DGRAM, 0) ? 0 : 1)'");
   ChildRun unix_socket =
       RunIn(*sb, "perl -e 'use Socket; exit(socket(my $s, PF_UNIX, SOCK_STREAM, 0) ? 0 : 1)'");
   ChildRun setsid = RunIn(*sb, "setsid true 2>/dev/null");
