@@ -5,7 +5,7 @@ set -euo pipefail
 packages=(
   build-essential cmake pkg-config
   libssl-dev libsqlite3-dev libsqlitecpp-dev libroaring-dev libzstd-dev
-  libfmt-dev nlohmann-json3-dev libcli11-dev libeigen3-dev libtomlplusplus-dev libboost-dev
+  libfmt-dev nlohmann-json3-dev libcli11-dev libeigen3-dev libtomlplusplus-dev libboost-dev libseccomp-dev
   libgtest-dev libgmock-dev
   python3 python3-numpy python3-scipy python3-sklearn python3-pandas
 )

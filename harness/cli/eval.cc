@@ -78,6 +78,25 @@ nlohmann::json AnswerReportJson(const EvalAnswer& a) {
           {"tau", a.tau}};
 }
 
+// The external predictor's protections: {"name", "enforced", "how"} each.
+nlohmann::json ConfinementJson(const EvalReport& r) {
+  nlohmann::json out = nlohmann::json::array();
+  for (const Protection& p : r.confinement) {
+    out.push_back({{"name", p.name}, {"enforced", p.enforced}, {"how", p.how}});
+  }
+  return out;
+}
+
+void PrintConfinement(const EvalReport& r) {
+  for (const Protection& p : r.confinement) {
+    if (p.enforced) {
+      fmt::print("confined: {}: {}\n", p.name, p.how);
+    } else {
+      fmt::print("WARNING: the predictor was not confined: {}: {}\n", p.name, p.how);
+    }
+  }
+}
+
 void PrintText(const EvalReport& r) {
   fmt::print("{:<20} {:<17} {:>10} {:>10} {:>10}  {:<15} {:>6} {:>7} {:>7} {:>7}\n", "model",
              "metric", "estimate", "lower", "upper", "method", "delta", "n", "queries", "reveals");
@@ -120,6 +139,7 @@ void PrintText(const EvalReport& r) {
           ? std::string()
           : fmt::format("; the budget was raised {} times after the seal", r.budget_raises),
       r.answers.empty() ? std::string("-") : Num(r.answers.back().delta));
+  PrintConfinement(r);
   fmt::print(
       "The bounds assume the holdout is an independent sample of the population the model will "
       "meet; no bound corrects a sampling bias.\n");
@@ -202,6 +222,7 @@ Runner SetupEval(CLI::App& app) {
         j["budget"] = r.budget;
         j["budget_raises"] = r.budget_raises;
         j["head"] = ToHex(r.head);
+        if (a.kind == "external" && !r.confinement.empty()) j["confinement"] = ConfinementJson(r);
         out.push_back(j);
       }
       fmt::print("{}\n", out.dump());

@@ -6,7 +6,9 @@
 #include "harness/data/csv.h"
 #include "harness/data/row_digest.h"
 #include "harness/data/source_scan.h"
+#include "harness/ledger/entries.h"
 #include "harness/pipeline/pipeline.h"
+#include "harness/evaluate/guard_messages.h"
 #include "harness/evaluate/sealed_holdout.h"
 #include "harness/ledger/sealed_figures.h"
 #include "storage/row_set.h"
@@ -47,6 +49,13 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
   if (csv->header().size() != src.columns.size()) return Mismatch("column count");
 
   std::unique_ptr<HoldoutGuard> g(new HoldoutGuard());
+  g->ledger_path_ = ledger.path();
+  // The registered file, wherever init was run: kept out of an external predictor's reach.
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<SourceBody>> sources,
+                          ReadEntries<SourceBody>(ledger));
+  for (const auto& s : sources) {
+    g->source_files_.push_back(s.body.absolute_path.value_or(s.body.source.path));
+  }
   g->source_ = src;
   std::vector<size_t> feature_cols;
   for (size_t c = 0; c < src.columns.size(); ++c) {
@@ -67,7 +76,7 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
     if (n >= rows.size()) return Mismatch("more rows than the holdout set");
     RowDigest d = all.Digest(f);
     if (std::memcmp(d.data(), row_digests.data() + n * d.size(), d.size()) != 0) {
-      return Mismatch("row " + std::to_string(rows[n]) + " differs from its content digest");
+      return Mismatch("a row differs from its content digest");
     }
     ++n;
     for (size_t k = 0; k < feature_cols.size(); ++k) {
@@ -101,8 +110,17 @@ Result<std::unique_ptr<HoldoutGuard>> HoldoutGuard::Open(const Ledger& ledger,
 
 Result<MetricSample> HoldoutGuard::EvaluateModel(const FrozenModel& model, Metric metric,
                                                  const RangeOptions& range) const {
-  UNSEEN_ASSIGN_OR_RETURN(Predictions p, model.Predict(features_));
-  return SampleMetric(metric, target_, p, static_cast<int>(source_.target.classes.size()), range);
+  Result<Predictions> p = model.Predict(features_);
+  if (!p.ok()) return ValueFreeError(p.status(), source_);
+  if (!p->value.allFinite() || (p->proba.size() > 0 && !p->proba.allFinite())) {
+    return Status::InvalidArgument(
+        "cannot be applied to the holdout: it predicted a value that is not finite (no "
+        "holdout value or position is shown)");
+  }
+  Result<MetricSample> sample =
+      SampleMetric(metric, target_, *p, static_cast<int>(source_.target.classes.size()), range);
+  if (!sample.ok()) return ValueFreeError(sample.status(), source_);
+  return sample;
 }
 
 }  // namespace unseen

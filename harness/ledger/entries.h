@@ -27,6 +27,7 @@
 #define UNSEEN_HARNESS_LEDGER_ENTRIES_H_
 
 #include <cstdint>
+#include <map>
 #include <memory>
 #include <nlohmann/json.hpp>
 #include <optional>
@@ -56,6 +57,7 @@ inline constexpr std::string_view kKindScore = "score";
 inline constexpr std::string_view kKindEval = "eval";
 inline constexpr std::string_view kKindBudget = "budget";
 inline constexpr std::string_view kKindRefusal = "refusal";
+inline constexpr std::string_view kKindExposure = "exposure";
 
 // --- Pieces several bodies share (written to disk) -------------------------
 
@@ -342,12 +344,19 @@ struct EvalThresholdout {
   uint64_t run_answers = 0;  // the run's answers up to and including this entry's
 };
 
-// The external predictor of an `eval --command`: its identity.
+// Which protections held while an external predictor ran
+// ("confinement": {"filesystem": true, "network": false, ...}; names in
+// harness/evaluate/confine.h). Absent (entries before confinement): empty.
+using ConfinementRecord = std::map<std::string, bool>;
+
+// The external predictor of an `eval --command`: its identity, and the
+// protections in force when it ran (written only when known).
 struct EvalExternal {
   std::string name;
   std::string command;
   std::vector<FileRecord> attached;
   double timeout_seconds = 0;
+  ConfinementRecord confinement;
 };
 
 // "eval": one batch of holdout answers. Required: answers (see
@@ -404,6 +413,25 @@ struct RefusalBody {
   std::string summary;
 };
 
+// "exposure": a model that was applied to the holdout (or an external
+// predictor that received its features) and then failed: no answer was
+// shown, but the predictor saw `holdout_rows_sent` rows' features and the
+// kind of failure (value-free, `reason`) was shown. Appended in its own
+// transaction after the eval's is rolled back (RecordExposure, ledger/
+// exposure.h). Every key required except confinement (absent: not an
+// external predictor, or it never started).
+struct ExposureBody {
+  static constexpr std::string_view kKind = kKindExposure;
+  std::string command = "eval";
+  std::string model;
+  std::string model_kind;  // "model_kind": "frozen" or "external"
+  Digest256 model_digest{};
+  uint64_t holdout_rows_sent = 0;  // rows whose features left this process
+  std::string reason;              // the value-free message shown
+  ConfinementRecord confinement;
+  std::string summary;
+};
+
 // --- Encoding ---------------------------------------------------------------
 
 // The kind's own fields as a JSON object text (keys sorted), ready for
@@ -422,6 +450,7 @@ std::string EncodeFields(const ScoreBody& body);
 std::string EncodeFields(const EvalBody& body);
 std::string EncodeFields(const BudgetBody& body);
 std::string EncodeFields(const RefusalBody& body);
+std::string EncodeFields(const ExposureBody& body);
 
 // --- Decoding ---------------------------------------------------------------
 
@@ -439,6 +468,7 @@ Status DecodeBody(const Entry& entry, ScoreBody* body);
 Status DecodeBody(const Entry& entry, EvalBody* body);
 Status DecodeBody(const Entry& entry, BudgetBody* body);
 Status DecodeBody(const Entry& entry, RefusalBody* body);
+Status DecodeBody(const Entry& entry, ExposureBody* body);
 
 // An entry with its decoded body.
 template <typename Body>
@@ -532,6 +562,7 @@ bool operator==(const EvalExternal& a, const EvalExternal& b);
 bool operator==(const EvalBody& a, const EvalBody& b);
 bool operator==(const BudgetBody& a, const BudgetBody& b);
 bool operator==(const RefusalBody& a, const RefusalBody& b);
+bool operator==(const ExposureBody& a, const ExposureBody& b);
 
 }  // namespace unseen
 

@@ -124,10 +124,12 @@ EvalThresholdout ReadThresholdout(BodyReader& r) {
 json ExternalJson(const EvalExternal& e) {
   json attached = json::array();
   for (const FileRecord& f : e.attached) attached.push_back(FileJson(f));
-  return {{"name", e.name},
-          {"command", e.command},
-          {"attached", attached},
-          {"timeout_seconds", e.timeout_seconds}};
+  json j = {{"name", e.name},
+            {"command", e.command},
+            {"attached", attached},
+            {"timeout_seconds", e.timeout_seconds}};
+  if (!e.confinement.empty()) j["confinement"] = e.confinement;
+  return j;
 }
 
 EvalExternal ReadExternal(BodyReader& r) {
@@ -140,6 +142,7 @@ EvalExternal ReadExternal(BodyReader& r) {
                           r.OptionalDigest(Path("external.attached", i, "sha256"))});
   }
   e.timeout_seconds = r.Optional<double>("external.timeout_seconds");
+  e.confinement = r.Optional<ConfinementRecord>("external.confinement");
   return e;
 }
 
@@ -257,8 +260,8 @@ bool operator==(const EvalThresholdout& a, const EvalThresholdout& b) {
 }
 
 bool operator==(const EvalExternal& a, const EvalExternal& b) {
-  return std::tie(a.name, a.command, a.attached, a.timeout_seconds) ==
-         std::tie(b.name, b.command, b.attached, b.timeout_seconds);
+  return std::tie(a.name, a.command, a.attached, a.timeout_seconds, a.confinement) ==
+         std::tie(b.name, b.command, b.attached, b.timeout_seconds, b.confinement);
 }
 
 bool operator==(const EvalBody& a, const EvalBody& b) {

@@ -61,6 +61,7 @@ Result<std::string> SummarizeEntry(const Entry& entry) {
   if (kind == kKindEval) return StoredSummary<EvalBody>(entry);
   if (kind == kKindBudget) return StoredSummary<BudgetBody>(entry);
   if (kind == kKindRefusal) return StoredSummary<RefusalBody>(entry);
+  if (kind == kKindExposure) return StoredSummary<ExposureBody>(entry);
   return UnknownKindSummary(entry);
 }
 

@@ -112,11 +112,13 @@ Status OpenGuard(EvalRun* run) {
 }
 
 // An external predictor's identity as the entry records it.
-Result<EvalExternal> ExternalRecord(const ExternalModelRequest& ext, const Query& q) {
+Result<EvalExternal> ExternalRecord(const EvalRun& run, const ExternalModelRequest& ext,
+                                    const Query& q) {
   EvalExternal out;
   out.name = ext.name;
   out.command = ext.command;
   out.timeout_seconds = ext.timeout_seconds;
+  if (run.external_run) out.confinement = ConfinementOf(*run.external_run);
   for (const json& a : q.model.at("attached")) {
     UNSEEN_ASSIGN_OR_RETURN(Digest256 d, Digest256FromHex(a.at("sha256").get<std::string>()));
     out.attached.push_back(FileRecord{a.at("path").get<std::string>(), d});
@@ -135,7 +137,8 @@ Status RecordAnswers(EvalRun* run) {
     names += (names.empty() ? "" : ", ") + q.name;
   }
   if (req.external) {
-    UNSEEN_ASSIGN_OR_RETURN(body.external, ExternalRecord(*req.external, run->queries.back()));
+    UNSEEN_ASSIGN_OR_RETURN(body.external,
+                            ExternalRecord(*run, *req.external, run->queries.back()));
   }
   if (req.thresholdout && run->new_queries > 0) {
     UNSEEN_ASSIGN_OR_RETURN(body.thresholdout, SealThresholdoutState(run));
@@ -176,6 +179,7 @@ Result<EvalReport> EvaluateModels(const EvalRequest& req) {
     UNSEEN_RETURN_IF_ERROR(AnswerQuery(run.get(), q));
   }
   UNSEEN_RETURN_IF_ERROR(RecordAnswers(run.get()));
+  if (run->external_run) run->report.confinement = run->external_run->protections;
   return std::move(run->report);
 }
 

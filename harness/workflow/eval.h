@@ -13,6 +13,7 @@
 #include <string>
 #include <vector>
 
+#include "harness/evaluate/confine.h"
 #include "harness/ledger/keys.h"
 #include "storage/digest.h"
 #include "storage/status.h"
@@ -97,6 +98,8 @@ struct EvalReport {
   uint64_t budget = 0;
   uint64_t budget_raises = 0;  // `budget` entries since the seal
   Digest256 head{};
+  // eval --command: each protection of the predictor's run, and whether it held.
+  std::vector<Protection> confinement;
 };
 
 // Refused (exit 1, after a `refusal` entry) for a tainted model without

@@ -149,18 +149,21 @@ Result<MetricSample> Sample(EvalRun* run, const Query& q) {
   if (q.kind == "external") {
     const ExternalModelRequest& ext = *run->req->external;
     ExternalPredictor predictor;
+    predictor.name = ext.name;
     predictor.command = ext.command;
+    predictor.attached = ext.attach;
+    if (run->req->key) predictor.keep_out.push_back(run->req->key->key_file);
     predictor.timeout =
         std::chrono::milliseconds(static_cast<int64_t>(ext.timeout_seconds * 1000));
     UNSEEN_ASSIGN_OR_RETURN(std::string seed, RandomBytes(8));
     std::memcpy(&predictor.shuffle_seed, seed.data(), 8);
-    sample = run->guard->EvaluateExternal(predictor, run->setup.metric, run->setup.range);
+    run->external_run.emplace();
+    sample = run->guard->EvaluateExternal(predictor, run->setup.metric, run->setup.range,
+                                          &*run->external_run);
   } else {
     sample = run->guard->EvaluateModel(*q.frozen, run->setup.metric, run->setup.range);
   }
-  if (!sample.ok()) {
-    return Status::InvalidArgument("model '" + q.name + "': " + sample.status().message());
-  }
+  if (!sample.ok()) return RecordFailure(run, q, sample.status());  // eval_exposure.cc
   return sample;
 }
 

@@ -129,6 +129,7 @@ struct EvalRun {
   std::optional<AdmittedData> train_rows;  // Thresholdout: loaded on first use
   std::vector<EvalAnswerRecord> answers;  // as recorded
   std::vector<BlobRef> blobs;
+  std::optional<ExternalRun> external_run;  // eval --command, once it was run
 };
 
 // --- eval_plan.cc: what is asked, before any holdout value is read ---
@@ -169,6 +170,16 @@ Result<EvalThresholdout> SealThresholdoutState(EvalRun* run);
 Result<double> TrainingMean(EvalRun* run, const Query& q);
 // A uniform draw in (0, 1) from the operating system's random source.
 Result<double> UniformDraw();
+
+// --- eval_exposure.cc: a failure on the holdout, recorded ---
+
+// Rolls the command's transaction back, appends an `exposure` entry for
+// query `q` (the rows an external predictor received, the value-free
+// reason) and returns InvalidArgument saying so ("model 'NAME': REASON; ...
+// recorded as entry N"); the ledger's error if it cannot be recorded.
+Status RecordFailure(EvalRun* run, const Query& q, const Status& error);
+// The protections of the predictor's run as the ledger records them.
+ConfinementRecord ConfinementOf(const ExternalRun& run);
 
 // --- eval_answer.cc: one answer per query ---
 

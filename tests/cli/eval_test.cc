@@ -643,10 +643,15 @@ class ExternalEvalTest : public EvalTest {
 };
 
 TEST_F(ExternalEvalTest, PredictorSeesTokensAndFeaturesOnlyAndIsScored) {
-  // Predicts class "yes" for every row and records what it was shown.
-  RunResult r =
-      External("tee " + ShellQuote(dir_.File("seen.csv")) +
-               " | awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
+  // Predicts class "yes" for every row, once it has checked what it was shown: the header, and
+  // no id (r<N>) in any field. It cannot write what it saw outside its private directory, so
+  // it checks there and fails otherwise.
+  RunResult r = External(
+      "cat > seen.csv\n"
+      "[ \"$(head -n 1 seen.csv)\" = unseen_token,a,b ] || exit 1\n"
+      "grep -q -E '(^|,)r[0-9]+(,|$)' seen.csv && exit 1\n"
+      "[ \"$(wc -l < seen.csv)\" -eq " + std::to_string(HoldoutRows().size() + 1) + " ] || exit 1\n"
+      "awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}' seen.csv\n");
   ASSERT_EQ(r.exit_code, 0) << r.err;
   json a = json::parse(r.out)[0];
   EXPECT_EQ(a["kind"], "external");
@@ -654,34 +659,30 @@ TEST_F(ExternalEvalTest, PredictorSeesTokensAndFeaturesOnlyAndIsScored) {
   auto rows = HoldoutRows();
   for (const auto& row : rows) no += row[5] != "yes";
   EXPECT_NEAR(a["estimate"].get<double>(), std::round(1000.0 * no / rows.size()) / 1000, 1e-12);
-  std::string seen = ReadFile(dir_.File("seen.csv"));
-  EXPECT_EQ(seen.substr(0, seen.find('\n')), "unseen_token,a,b");
-  for (const auto& row : rows) EXPECT_EQ(seen.find(row[0] + ","), std::string::npos);  // no ids
   EXPECT_EQ(Status()["holdout_queries"], 1);
 }
 
 TEST_F(ExternalEvalTest, PredictorGetsNoUnseenVariableAndNoOpenFileOfOurs) {
   // A passphrase in the environment, and the ledger open in this process: the predictor
-  // records what it can see, then answers.
+  // checks what it can see (it fails if it sees either), then answers.
   setenv("UNSEEN_PASSPHRASE", "never-shown-to-predictors", 1);
-  RunResult r = External("env > " + ShellQuote(dir_.File("env.txt")) + "; ls -l /proc/$$/fd/ > " +
-                         ShellQuote(dir_.File("fds.txt")) +
-                         "; awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
+  RunResult r = External(
+      "env | grep -q UNSEEN_ && exit 1\n"
+      "env | grep -q never-shown-to-predictors && exit 1\n"
+      "perl -e 'for my $fd (3..1023) { exit 1 if open(my $h, \"<&=\", $fd) }' || exit 1\n"
+      "awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
   unsetenv("UNSEEN_PASSPHRASE");
   ASSERT_EQ(r.exit_code, 0) << r.err;
-  const std::string env = ReadFile(dir_.File("env.txt"));
-  EXPECT_EQ(env.find("UNSEEN_"), std::string::npos) << env;
-  EXPECT_EQ(env.find("never-shown-to-predictors"), std::string::npos);
-  const std::string fds = ReadFile(dir_.File("fds.txt"));
-  EXPECT_EQ(fds.find(dir_.File("l")), std::string::npos) << fds;
 }
 
-TEST_F(ExternalEvalTest, FailedPredictorsRevealNothingAndSpendNothing) {
-  const std::string before = ReadFile(dir_.File("l"));
+TEST_F(ExternalEvalTest, FailedPredictorsAreRecordedAndSpendNothing) {
+  // (Until predictors were confined, a failure left the ledger byte-identical and said
+  // "nothing was revealed"; but the predictor had received the holdout's features. Now each
+  // failure appends one `exposure` entry, and the message quotes nothing the predictor chose.)
   struct Case {
     std::string script, extra, message;
   } cases[] = {
-      {"cat >/dev/null; echo boom >&2; exit 3\n", "", "exited with status 3: boom"},
+      {"cat >/dev/null; echo boom >&2; exit 3\n", "", "exited with a non-zero status"},
       {"cat >/dev/null; sleep 5\n", "--timeout 0.3", "did not finish"},
       {"awk -F, 'NR==1{print \"token,prediction\"; next} NR<5{print $1\",yes\"}'\n", "",
        "expected"},
@@ -697,12 +698,22 @@ TEST_F(ExternalEvalTest, FailedPredictorsRevealNothingAndSpendNothing) {
        "{print $1\",yes,0.5,1.5\"}'\n",
        "", "is not a number in [0, 1]"},
   };
+  const json before = Status();
+  size_t exposures = Count("exposure");
   for (const Case& c : cases) {
     RunResult r = External(c.script, c.extra);
     EXPECT_EQ(r.exit_code, 2) << c.script << r.err;
     EXPECT_NE(r.err.find(c.message), std::string::npos) << c.script << r.err;
+    EXPECT_EQ(r.err.find("nothing was revealed"), std::string::npos) << r.err;
+    EXPECT_NE(r.err.find("recorded as exposure entry"), std::string::npos) << r.err;
+    // Nothing the predictor wrote is quoted: not its stderr, its tokens or its predictions.
+    for (const char* chosen : {"boom", "bogus", "maybe", "1.5"}) {
+      EXPECT_EQ(r.err.find(chosen), std::string::npos) << chosen << ": " << r.err;
+    }
+    EXPECT_EQ(Count("exposure"), ++exposures) << c.script;
   }
-  EXPECT_EQ(ReadFile(dir_.File("l")), before);
+  EXPECT_EQ(Status()["holdout_queries"], before["holdout_queries"]);
+  EXPECT_EQ(RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k")).exit_code, 0);
 }
 
 TEST_F(ExternalEvalTest, AttachedCopyOfTheHoldoutIsRefused) {

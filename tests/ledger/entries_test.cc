@@ -562,6 +562,54 @@ TEST(EntriesTest, RefusalFieldsArePinned) {
   EXPECT_EQ(EncodeFields(SampleRefusal()), expected);
 }
 
+// --- exposure, and the confinement an external predictor ran under ---------------
+
+ExposureBody SampleExposure() {
+  ExposureBody b;
+  b.model = "ext";
+  b.model_kind = "external";
+  b.model_digest.fill(0x84);
+  b.holdout_rows_sent = 100;
+  b.reason = "external predictor 'ext' exited with a non-zero status";
+  b.confinement = {{"filesystem", true}, {"network", false}};
+  b.summary = "eval: external model 'ext' failed on the holdout";
+  return b;
+}
+
+TEST(EntriesTest, ExposureRoundTripsAndItsFieldsArePinned) {
+  ExpectRoundTrip(SampleExposure());
+  ExposureBody frozen = SampleExposure();
+  frozen.model_kind = "frozen";
+  frozen.holdout_rows_sent = 0;
+  frozen.confinement.clear();  // not written: no predictor ran
+  ExpectRoundTrip(frozen);
+  EXPECT_EQ(json::parse(EncodeFields(frozen)).count("confinement"), 0u);
+  const std::string expected =
+      R"({"command":"eval","confinement":{"filesystem":true,"network":false},)"
+      R"("holdout_rows_sent":100,"model":"ext",)"
+      R"("model_digest":"8484848484848484848484848484848484848484848484848484848484848484",)"
+      R"("model_kind":"external",)"
+      R"("reason":"external predictor 'ext' exited with a non-zero status",)"
+      R"("summary":"eval: external model 'ext' failed on the holdout"})";
+  EXPECT_EQ(EncodeFields(SampleExposure()), expected);
+}
+
+TEST(EntriesTest, MalformedExposure) {
+  ExpectCorrupt(SampleExposure(), [](json& j) { j.erase("holdout_rows_sent"); },
+                "key 'holdout_rows_sent' is missing");
+  ExpectCorrupt(SampleExposure(), [](json& j) { j["confinement"]["network"] = "no"; },
+                "confinement");
+}
+
+TEST(EntriesTest, EvalExternalConfinementIsWrittenOnlyWhenKnown) {
+  EvalBody eval = SampleEval();
+  // Entries before confinement have none, and keep their form (EvalFieldsArePinned).
+  EXPECT_EQ(json::parse(EncodeFields(eval))["external"].count("confinement"), 0u);
+  eval.external->confinement = {{"directory", true}, {"filesystem", false}};
+  ExpectRoundTrip(eval);
+  EXPECT_EQ(json::parse(EncodeFields(eval))["external"]["confinement"],
+            json({{"directory", true}, {"filesystem", false}}));
+}
 
 // --- malformed bodies: Corruption naming the entry, never an exception ----------
 
