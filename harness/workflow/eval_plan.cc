@@ -124,7 +124,7 @@ Result<MetricSetup> SetUpMetric(const EvalRequest& req, const LedgerState& st) {
   } else {
     m.range.target_lo = st.source.target.min;
     m.range.target_hi = st.source.target.max;
-    m.range.target_range_source = "source";
+    m.range.target_range_source = "dev-rows";  // published at seal; the source-wide range is sealed
   }
   m.range.prob_floor = req.prob_floor;
   if (!classification && !(std::isfinite(m.range.target_lo) && std::isfinite(m.range.target_hi) &&

@@ -488,6 +488,54 @@ TEST_F(EvalTest, DeltaIsTheLedgersAndCannotBeChangedPerCall) {
   EXPECT_EQ(json::parse(same.out)[0]["delta"], 0.05);
 }
 
+TEST(RegressionEvalTest, DefaultRangeIsTheDevRowsAndClippingIsOneBit) {
+  // y = x for x = 0..399, with ids; the range without --range is the
+  // development rows' (published), never the source's (which would show
+  // holdout targets), and whether a holdout row was clipped is a bool.
+  TempDir dir;
+  auto Q = [&](const std::string& f) { return ShellQuote(dir.File(f)); };
+  std::string csv = "id,x,y\n";
+  for (int i = 0; i < 400; ++i) {
+    csv += "r" + std::to_string(i) + "," + std::to_string(i) + "," + std::to_string(i) + "\n";
+  }
+  WriteFile(dir.File("d.csv"), csv);
+  WriteFile(dir.File("s.toml"), "[learner]\nkind = \"linear\"\n");
+  ASSERT_EQ(RunUnseen("keygen --out " + Q("k")).exit_code, 0);
+  ASSERT_EQ(RunUnseen("init --ledger " + Q("l") + " --data " + Q("d.csv") +
+                      " --target y --id id --task regression")
+                .exit_code,
+            0);
+  ASSERT_EQ(RunUnseen("seal --ledger " + Q("l") + " --key-file " + Q("k") +
+                      " --fraction 0.25 --seed 3 --dev-out " + Q("dev.csv"))
+                .exit_code,
+            0);
+  double lo = 1e9, hi = -1e9;
+  std::istringstream dev(ReadFile(dir.File("dev.csv")));
+  std::string line;
+  std::getline(dev, line);
+  while (std::getline(dev, line)) {
+    const double y = std::stod(line.substr(line.rfind(',') + 1));
+    lo = std::fmin(lo, y);
+    hi = std::fmax(hi, y);
+  }
+  ASSERT_EQ(RunUnseen("fit --ledger " + Q("l") + " --spec " + Q("s.toml") + " --name lin").exit_code,
+            0);
+  RunResult r = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                          " lin --metric mae");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  json a = json::parse(r.out)[0];
+  EXPECT_EQ(a["range_source"], "dev-rows");
+  EXPECT_NEAR(a["range"][1].get<double>(), hi - lo, 1e-9);
+  EXPECT_TRUE(a["outside_range"].is_boolean());
+  // mae by Hoeffding: one of 1001 grid values, and one bit for the clipping.
+  json hist = json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
+  double code = -1;
+  for (const json& e : hist) {
+    if (e["kind"] == "eval") code = e["body"]["answers"][0]["code_length"];
+  }
+  EXPECT_NEAR(code, std::log(1001.0) + std::log(2.0), 1e-12);
+}
+
 TEST(HalfWidthBudgetTest, AQueryWhoseIntervalWouldBeTooWideIsRefused) {
   TempDir dir;
   auto Q = [&](const std::string& f) { return ShellQuote(dir.File(f)); };
