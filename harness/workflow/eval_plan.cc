@@ -47,8 +47,9 @@ Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
     DataRefusal refusal;
     auto loaded = AdmitData(ledger, st, path, DataPurpose::kNewRows, &refusal, key);
     if (!loaded.ok() && loaded.status().IsRefused()) {
-      q.taints.push_back("attached file " + path + " holds " +
-                         std::to_string(refusal.holdout_rows) + " holdout rows");
+      // Whether, never how many: the count would say which of the rows a
+      // modeller put in the file are holdout rows, labels included.
+      q.taints.push_back("attached file " + path + " holds holdout rows");
     }
   }
   q.model = {{"command", ext.command}, {"attached", attached}};
