@@ -57,7 +57,12 @@ Status RefuseTainted(EvalRun* run) {
                     "' is tainted: " + tainted[0]["taints"][0].get<std::string>() +
                     "; its holdout score would not be an honest estimate (use "
                     "--accept-contamination REASON to evaluate it anyway, marked contaminated)";
-  return Refuse(run, why, json{{"tainted", tainted}});
+  json details = {{"tainted", tainted}};
+  for (const Query& q : run->queries) {
+    // One bit the accounting counts (PlaceAnswers): the key holder's check found holdout rows.
+    if (q.attachments_hold_holdout_rows) details["attachments_hold_holdout_rows"] = true;
+  }
+  return Refuse(run, why, details);
 }
 
 // Counts the new queries against the budget.

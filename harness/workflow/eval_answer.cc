@@ -295,6 +295,11 @@ Status AnswerQuery(EvalRun* run, const Query& q) {
                         : run->req->ladder     ? LadderShown(run, q, sample)
                                                : PlainShown(run, q, sample);
   if (!shown.ok()) return shown.status();
+  if (q.attachments_checked && shown->code_length) {
+    // The answer also shows that the attached files hold no holdout rows
+    // (or, under --accept-contamination, that they do): one bit.
+    *shown->code_length += std::log(2.0);
+  }
   FillAnswer(run, q, *shown);
   return Status::OK();
 }

@@ -50,8 +50,10 @@ Result<Query> ExternalQuery(const Ledger& ledger, const LedgerState& st,
       // Whether, never how many: the count would say which of the rows a
       // modeller put in the file are holdout rows, labels included.
       q.taints.push_back("attached file " + path + " holds holdout rows");
+      q.attachments_hold_holdout_rows = true;
     }
   }
+  q.attachments_checked = key != nullptr && !ext.attach.empty();
   q.model = {{"command", ext.command}, {"attached", attached}};
   UNSEEN_ASSIGN_OR_RETURN(std::string canonical, CanonicalJson(q.model.dump()));
   q.digest = Sha256Of(canonical);
@@ -258,6 +260,20 @@ Status PlaceAnswers(EvalRun* run) {
     if (run->reveals_before == 0) run->first_answer_entry = p.entry;
     ++run->reveals_before;
     run->log_transcript += *p.record.code_length;
+  }
+  // A refusal because attached files hold holdout rows showed one bit too.
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<RefusalBody>> refusals,
+                          ReadEntries<RefusalBody>(*run->ledger));
+  for (const Decoded<RefusalBody>& r : refusals) {
+    if (r.body.command != "eval" || !r.body.details.is_object() ||
+        !r.body.details.value("attachments_hold_holdout_rows", false)) {
+      continue;
+    }
+    if (run->reveals_before == 0 || r.entry.seq < run->first_answer_entry) {
+      run->first_answer_entry = r.entry.seq;
+    }
+    ++run->reveals_before;
+    run->log_transcript += std::log(2.0);
   }
   if (run->reveals_before > 0) {
     UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListModels(*run->ledger));

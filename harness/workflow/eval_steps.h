@@ -42,6 +42,11 @@ struct Query {
   std::shared_ptr<FrozenModel> frozen;  // frozen models, ready to apply
   std::vector<std::string> taints;
   const PastAnswer* repeat = nullptr;  // the earlier answer to the same question
+  // External predictors with attached files, checked with the key for
+  // holdout rows: whether they hold any is one bit the answer (or the
+  // refusal) shows, counted in its code length.
+  bool attachments_checked = false;
+  bool attachments_hold_holdout_rows = false;
   // New questions only (harness/bounds/accounting.h): the answer's number
   // j, ln(delta / delta_j), the question's code length, and their sum.
   uint64_t answer_index = 0;

@@ -800,6 +800,14 @@ TEST_F(ExternalEvalTest, OneHoldoutRowInAnAttachedFileIsFoundWithTheKey) {
     EXPECT_EQ(History().back()["kind"], "refusal");
   }
   EXPECT_EQ(Status()["holdout_queries"], 0);
+  // Each refusal showed one bit about the holdout, which later questions pay for.
+  RunResult later = External(
+      "awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
+  ASSERT_EQ(later.exit_code, 0) << later.err;
+  json a = json::parse(later.out)[0];
+  EXPECT_EQ(a["reveals_before"], 2);
+  EXPECT_NEAR(a["log_transcript"].get<double>(), 2 * std::log(2.0), 1e-12);
+  EXPECT_NEAR(a["log_question"].get<double>(), 3 * std::log(2.0), 1e-12);
 }
 
 TEST(BoundCommandTest, ClopperPearsonMatchesScipy) {
