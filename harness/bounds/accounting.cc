@@ -25,6 +25,12 @@ double LogQuestionCode(uint64_t reveals_before, double log_transcript,
   return std::log(2.0) + code;
 }
 
+double NoFailureCodeLength() { return -std::log1p(-1.0 / 1001); }
+
+double FailureCodeLength(uint64_t source_columns) {
+  return std::log(1001.0) + std::log(16.0 * (static_cast<double>(source_columns) + 2));
+}
+
 double PlainAnswerCodeLength(double log_values) { return log_values; }
 
 double LadderAnswerCodeLength(bool moved, uint64_t max_submissions, uint64_t grid_values) {

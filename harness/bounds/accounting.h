@@ -45,6 +45,16 @@ double LogDeltaShare(uint64_t answer, uint64_t sealed_budget);
 double LogQuestionCode(uint64_t reveals_before, double log_transcript,
                        std::optional<double> log_advance_choices);
 
+// Any model applied to the holdout may fail instead of answering (a
+// value-free reason, recorded as an `exposure` entry), so every question
+// has those outcomes too: an answer's code gains ln(1001/1000) ("it did not
+// fail") and a failure costs ln 1001 + ln(16 (C + 2)), an upper bound on
+// the distinct value-free reasons for a source of C columns (8 kinds per
+// column or none, 14 for external predictors). The two parts' weights sum
+// to 1000/1001 + 1/1001 = 1.
+double NoFailureCodeLength();
+double FailureCodeLength(uint64_t source_columns);
+
 // The code length, in nats, of one plain answer that could have shown one
 // of R values: ln R.
 double PlainAnswerCodeLength(double log_values);

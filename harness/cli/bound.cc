@@ -40,7 +40,8 @@ Runner SetupBound(CLI::App& app) {
                   "As a ledger's answer: answers shown before the question was asked")
       ->capture_default_str();
   cmd->add_option("--resolution-values", opt->req.resolution_values,
-                  "How many different values one answer could show")
+                  "How many different values one answer could show (1001 for a 0/1 or Hoeffding "
+                  "answer; 1001^3 for the others, twice that for mse and mae)")
       ->capture_default_str();
   cmd->add_option("--advance", opt->req.advance,
                   "As a ledger's answer: the questions fixed before the first answer, when this "

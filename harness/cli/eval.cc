@@ -4,6 +4,8 @@
 
 #include <fmt/core.h>
 
+#include <algorithm>
+
 #include <nlohmann/json.hpp>
 
 #include "harness/cli/commands.h"
@@ -133,12 +135,17 @@ void PrintText(const EvalReport& r) {
   fmt::print(
       "Holdout queries: {} of {} used ({} by this call{}). With probability at least 1-delta "
       "(delta = {}, fixed at seal), every interval this ledger has shown or will show holds at "
-      "once; each is final when shown.\n",
+      "once; each is final when shown{}.\n",
       r.queries_total, r.budget, r.queries_spent,
       r.budget_raises == 0
           ? std::string()
           : fmt::format("; the budget was raised {} times after the seal", r.budget_raises),
-      r.answers.empty() ? std::string("-") : Num(r.answers.back().delta));
+      r.answers.empty() ? std::string("-") : Num(r.answers.back().delta),
+      std::any_of(r.answers.begin(), r.answers.end(),
+                  [](const EvalAnswer& a) { return a.mode == "thresholdout"; })
+          ? " (a Thresholdout interval only while fewer than B of its run's queries overfit, "
+            "which the tool cannot check: see its assumptions)"
+          : "");
   PrintConfinement(r);
   fmt::print(
       "The bounds assume the holdout is an independent sample of the population the model will "

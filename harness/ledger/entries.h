@@ -304,7 +304,10 @@ struct EvalAnswerRecord {
   double step = 0;
   double range_lo = 0, range_hi = 1;  // "range": [lo, hi]
   std::string range_source;
-  bool outside_range = false;  // some value fell outside the range (mse, mae)
+  // The question's target range (regression) and probability floor (log
+  // loss): two ranges of one width are different questions.
+  double target_lo = 0, target_hi = 0, prob_floor = 0;
+  bool outside_range = false;  // plain answers on mse, mae: some value was clipped
   uint64_t queries = 0;
   // The accounting (harness/bounds/accounting.h): this answer's number j
   // among the ledger's answers, ln(delta / delta_j), the answers shown

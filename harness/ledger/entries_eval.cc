@@ -29,6 +29,8 @@ json AnswerRecordJson(const EvalAnswerRecord& a) {
             {"step", a.step},
             {"range", json::array({a.range_lo, a.range_hi})},
             {"range_source", a.range_source},
+            {"target_range", json::array({a.target_lo, a.target_hi})},
+            {"prob_floor", a.prob_floor},
             {"outside_range", a.outside_range},
             {"queries", a.queries},
             {"answer_index", a.answer_index},
@@ -74,6 +76,14 @@ EvalAnswerRecord ReadAnswer(BodyReader& r, size_t i) {
     r.Fail("'" + at("range") + "' should be [lo, hi]");
   }
   a.range_source = r.Required<std::string>(at("range_source"));
+  const std::vector<double> target = r.Required<std::vector<double>>(at("target_range"));
+  if (target.size() == 2) {
+    a.target_lo = target[0];
+    a.target_hi = target[1];
+  } else {
+    r.Fail("'" + at("target_range") + "' should be [lo, hi]");
+  }
+  a.prob_floor = r.Required<double>(at("prob_floor"));
   a.outside_range = r.Required<bool>(at("outside_range"));
   a.queries = r.Optional<uint64_t>(at("queries"));
   a.answer_index = r.Required<uint64_t>(at("answer_index"));
@@ -239,7 +249,8 @@ namespace {
 
 auto Tie(const EvalAnswerRecord& a) {
   return std::tie(a.model, a.kind, a.model_digest, a.metric, a.method, a.delta, a.n, a.estimate,
-                  a.lower, a.upper, a.step, a.range_lo, a.range_hi, a.range_source, a.outside_range,
+                  a.lower, a.upper, a.step, a.range_lo, a.range_hi, a.range_source, a.target_lo,
+                  a.target_hi, a.prob_floor, a.outside_range,
                   a.queries, a.answer_index, a.log_share, a.reveals_before, a.log_transcript,
                   a.log_question, a.log_hypotheses, a.repeat_of,
                   a.contaminated, a.taints, a.mode, a.improved, a.leader, a.ladder_step, a.tau,

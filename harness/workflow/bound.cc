@@ -23,7 +23,11 @@ Status CheckCounts(const BoundCalcRequest& req) {
         "--models counts questions compared without a ledger; with --answer, --reveals or "
         "--advance, give the questions fixed in advance as --advance");
   }
-  if (req.answer && *req.answer == 0) return Status::InvalidArgument("--answer: expected j >= 1");
+  if (req.answer && *req.answer <= req.reveals) {
+    return Status::InvalidArgument("--answer " + std::to_string(*req.answer) + ": answer j comes after the " +
+                                   std::to_string(req.reveals) +
+                                   " answers shown before it; expected j > --reveals");
+  }
   if (req.budget == 0) return Status::InvalidArgument("--budget: expected at least 1");
   if (req.advance && *req.advance == 0)
     return Status::InvalidArgument("--advance: expected at least 1");

@@ -34,6 +34,9 @@ EvalAnswerRecord RecordOf(const EvalAnswer& a, const Shown& s) {
   r.range_lo = a.range_lo;
   r.range_hi = a.range_hi;
   r.range_source = a.range_source;
+  r.target_lo = s.target_lo;
+  r.target_hi = s.target_hi;
+  r.prob_floor = s.prob_floor;
   r.outside_range = a.outside_range;
   r.queries = a.queries;
   r.answer_index = a.answer_index;
@@ -101,7 +104,14 @@ Shown NewShown(const EvalRun& run, const Query& q, const MetricSample& sample) {
   s.range_lo = sample.range_lo;
   s.range_hi = sample.range_hi;
   s.range_source = "metric";
-  s.outside_range = sample.outside_range > 0;
+  s.target_lo = run.setup.range.target_lo;
+  s.target_hi = run.setup.range.target_hi;
+  s.prob_floor = run.setup.range.prob_floor;
+  // Whether a row was clipped is shown by plain answers only, whose code
+  // length counts it (RevealAnswer); the Ladder's and Thresholdout's codes
+  // have no room for it, and Thresholdout's theorem assumes the analyst sees
+  // its answers alone.
+  s.outside_range = run.req->ladder || run.req->thresholdout ? false : sample.outside_range > 0;
   s.answer_index = q.answer_index;
   s.log_share = q.log_share;
   s.reveals_before = run.reveals_before;
@@ -124,6 +134,9 @@ Shown RepeatShown(const PastAnswer& p) {
   s.range_lo = b.range_lo;
   s.range_hi = b.range_hi;
   s.range_source = b.range_source;
+  s.target_lo = b.target_lo;
+  s.target_hi = b.target_hi;
+  s.prob_floor = b.prob_floor;
   s.outside_range = b.outside_range;
   s.answer_index = b.answer_index;
   s.log_share = b.log_share;
@@ -295,6 +308,13 @@ Status AnswerQuery(EvalRun* run, const Query& q) {
                         : run->req->ladder     ? LadderShown(run, q, sample)
                                                : PlainShown(run, q, sample);
   if (!shown.ok()) return shown.status();
+  if ((run->req->ladder || run->req->thresholdout) && CanFallOutsideRange(run->setup.metric)) {
+    shown->assumptions +=
+        " The loss is clipped into its range; in this mode the answer does not say whether any "
+        "holdout row was clipped, and the interval is about the clipped loss.";
+  }
+  // It could have failed instead (an exposure): see NoFailureCodeLength().
+  if (shown->code_length) *shown->code_length += NoFailureCodeLength();
   if (q.attachments_checked && shown->code_length) {
     // The answer also shows that the attached files hold no holdout rows
     // (or, under --accept-contamination, that they do): one bit.

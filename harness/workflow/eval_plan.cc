@@ -21,7 +21,9 @@ namespace {
 bool SameQuestion(const EvalAnswerRecord& a, const Digest256& digest, const EvalRun& run) {
   return a.model_digest == digest && a.metric == run.metric_name &&
          a.method == run.method_name && a.delta == run.delta &&
-         a.range_lo == run.setup.probe.range_lo && a.range_hi == run.setup.probe.range_hi;
+         a.range_lo == run.setup.probe.range_lo && a.range_hi == run.setup.probe.range_hi &&
+         a.target_lo == run.setup.range.target_lo && a.target_hi == run.setup.range.target_hi &&
+         a.prob_floor == run.setup.range.prob_floor;
 }
 
 // An external predictor's identity (command line and attached files'
@@ -260,6 +262,16 @@ Status PlaceAnswers(EvalRun* run) {
     if (run->reveals_before == 0) run->first_answer_entry = p.entry;
     ++run->reveals_before;
     run->log_transcript += *p.record.code_length;
+  }
+  // A failure on the holdout (an `exposure`) showed its value-free reason.
+  UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<ExposureBody>> exposures,
+                          ReadEntries<ExposureBody>(*run->ledger));
+  for (const Decoded<ExposureBody>& x : exposures) {
+    if (run->reveals_before == 0 || x.entry.seq < run->first_answer_entry) {
+      run->first_answer_entry = x.entry.seq;
+    }
+    ++run->reveals_before;
+    run->log_transcript += FailureCodeLength(run->st.source.columns.size());
   }
   // A refusal because attached files hold holdout rows showed one bit too.
   UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<RefusalBody>> refusals,

@@ -24,7 +24,11 @@ Status ReplayLadderAnswers(EvalRun* run) {
   l.params.range_hi = run->setup.probe.range_hi;
   for (const PastAnswer& p : run->past) {
     const EvalAnswerRecord& a = p.record;
-    if (!p.reveal() || a.mode != "ladder" || a.metric != run->metric_name) continue;
+    if (!p.reveal() || a.mode != "ladder" || a.metric != run->metric_name ||
+        a.target_lo != run->setup.range.target_lo || a.target_hi != run->setup.range.target_hi ||
+        a.prob_floor != run->setup.range.prob_floor) {
+      continue;  // another board: each metric and range keeps its own
+    }
     if (!l.started) {
       if (!a.ladder_max_submissions) {
         return Status::Corruption("entry " + std::to_string(p.entry) +

@@ -94,6 +94,7 @@ struct Shown {
   double estimate = 0, lower = 0, upper = 0, step = 0;
   double range_lo = 0, range_hi = 1;
   std::string range_source;
+  double target_lo = 0, target_hi = 0, prob_floor = 0;  // the question's
   bool outside_range = false;
   uint64_t answer_index = 0, reveals_before = 0;
   double log_share = 0, log_transcript = 0, log_question = 0, log_hypotheses = 0;

@@ -224,8 +224,9 @@ TEST_F(EvalTest, QuestionAskedAfterARevealIsChargedForIt) {
   EXPECT_EQ(second["reveals_before"], 1);
   EXPECT_EQ(second["answer_index"], 2);
   // The first answer (Clopper–Pearson on n = 100 rows) is a function of its
-  // shown rate: one of n + 1 values.
-  const double transcript = std::log(n + 1);
+  // shown rate: one of n + 1 values; and it did not fail (ln(1001/1000),
+  // docs/bounds.md "One accounting").
+  const double transcript = std::log(n + 1) + std::log(1001.0 / 1000);
   EXPECT_NEAR(second["log_transcript"].get<double>(), transcript, 1e-9);
   // gamma's question is either coded by that transcript or, since gamma was
   // frozen before the first answer, as one of 2 models x 13 default
@@ -458,10 +459,12 @@ TEST_F(EvalTest, LadderAfterPlainAnswersIsChargedForThem) {
   const double n = plain["n"];
   json l = json::parse(Eval("--ladder --ladder-step 0.05 alpha").out)[0];
   EXPECT_EQ(l["reveals_before"], 1);
-  EXPECT_NEAR(l["log_transcript"].get<double>(), std::log(n + 1), 1e-9);
+  const double no_failure = std::log(1001.0 / 1000);  // it could have failed instead
+  const double first = std::log(n + 1) + no_failure;
+  EXPECT_NEAR(l["log_transcript"].get<double>(), first, 1e-9);
   // A Ladder question is never a default question fixed in advance.
-  EXPECT_NEAR(l["log_question"].get<double>(), std::log(2.0) + std::log(n + 1), 1e-9);
-  const double level = std::log(2 / (1.0 / 6 + 0.01)) + std::log(2.0) + std::log(n + 1);
+  EXPECT_NEAR(l["log_question"].get<double>(), std::log(2.0) + first, 1e-9);
+  const double level = std::log(2 / (1.0 / 6 + 0.01)) + std::log(2.0) + first;
   EXPECT_NEAR(l["log_hypotheses"].get<double>(), level, 1e-9);
   const double eps = std::sqrt((std::log(2.0) + level - std::log(0.05)) / (2 * n));
   EXPECT_NEAR(l["upper"].get<double>(), std::fmin(1.0, l["estimate"].get<double>() + 0.025 + eps),
@@ -471,7 +474,8 @@ TEST_F(EvalTest, LadderAfterPlainAnswersIsChargedForThem) {
   // A later plain question pays for the Ladder answer's code: a move costs
   // ln(k G) with k = the budget (100) and G = floor(1 / 0.05) + 2 = 22.
   json after = json::parse(Eval("alpha --metric accuracy").out)[0];
-  EXPECT_NEAR(after["log_transcript"].get<double>(), std::log(n + 1) + std::log(100.0 * 22), 1e-9);
+  EXPECT_NEAR(after["log_transcript"].get<double>(),
+              first + std::log(100.0 * 22) + no_failure, 1e-9);
 }
 
 TEST_F(EvalTest, DeltaIsTheLedgersAndCannotBeChangedPerCall) {
@@ -527,13 +531,33 @@ TEST(RegressionEvalTest, DefaultRangeIsTheDevRowsAndClippingIsOneBit) {
   EXPECT_EQ(a["range_source"], "dev-rows");
   EXPECT_NEAR(a["range"][1].get<double>(), hi - lo, 1e-9);
   EXPECT_TRUE(a["outside_range"].is_boolean());
-  // mae by Hoeffding: one of 1001 grid values, and one bit for the clipping.
+  // mae by Hoeffding: one of 1001 grid values, one bit for the clipping, and
+  // ln(1001/1000) for not failing.
   json hist = json::parse(RunUnseen("history --json --ledger " + Q("l")).out);
   double code = -1;
   for (const json& e : hist) {
     if (e["kind"] == "eval") code = e["body"]["answers"][0]["code_length"];
   }
-  EXPECT_NEAR(code, std::log(1001.0) + std::log(2.0), 1e-12);
+  EXPECT_NEAR(code, std::log(1001.0) + std::log(2.0) + std::log(1001.0 / 1000), 1e-12);
+  // Another target range of the same width is another question, not a repeat.
+  auto ask = [&](const std::string& extra) {
+    RunResult e = RunUnseen("eval --json --ledger " + Q("l") + " --key-file " + Q("k") +
+                            " lin --metric mae " + extra);
+    EXPECT_EQ(e.exit_code, 0) << e.err;
+    return json::parse(e.out)[0];
+  };
+  json low = ask("--range 0:3");
+  json high = ask("--range 100:103");
+  EXPECT_EQ(low["repeated"], false);
+  EXPECT_EQ(high["repeated"], false);
+  EXPECT_EQ(ask("--range 100:103")["repeated"], true);
+  // Targets far outside 0:3: a plain answer says some row was clipped; a
+  // Ladder answer cannot afford that bit and does not show it.
+  EXPECT_EQ(low["outside_range"], true);
+  json board = ask("--range 0:3 --ladder --ladder-step 0.3");
+  EXPECT_EQ(board["outside_range"], false);
+  EXPECT_NE(board["assumptions"].get<std::string>().find("does not say whether"),
+            std::string::npos);
 }
 
 TEST(HalfWidthBudgetTest, AQueryWhoseIntervalWouldBeTooWideIsRefused) {
@@ -761,6 +785,15 @@ TEST_F(ExternalEvalTest, FailedPredictorsAreRecordedAndSpendNothing) {
     EXPECT_EQ(Count("exposure"), ++exposures) << c.script;
   }
   EXPECT_EQ(Status()["holdout_queries"], before["holdout_queries"]);
+  // Each failure showed a value-free reason, which later questions pay for:
+  // ln 1001 + ln(16 (C + 2)) with C = 6 source columns (docs/bounds.md).
+  RunResult later = External(
+      "awk -F, 'NR==1{print \"token,prediction\"; next} {print $1\",yes\"}'\n");
+  ASSERT_EQ(later.exit_code, 0) << later.err;
+  json a = json::parse(later.out)[0];
+  EXPECT_EQ(a["reveals_before"], exposures);
+  EXPECT_NEAR(a["log_transcript"].get<double>(),
+              static_cast<double>(exposures) * (std::log(1001.0) + std::log(16.0 * 8)), 1e-9);
   EXPECT_EQ(RunUnseen("verify --ledger " + Q("l") + " --key-file " + Q("k")).exit_code, 0);
 }
 

@@ -261,6 +261,9 @@ EvalAnswerRecord SampleAnswer() {
   a.range_lo = 0;
   a.range_hi = 1;
   a.range_source = "metric";
+  a.target_lo = -1;
+  a.target_hi = 2;
+  a.prob_floor = 0.0001;
   a.outside_range = true;
   a.queries = 3;
   a.answer_index = 3;
@@ -522,9 +525,10 @@ TEST(EntriesTest, EvalFieldsArePinned) {
       R"("log_share":1.0,"log_transcript":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
       R"("model":"m1",)"
       R"("model_digest":"8181818181818181818181818181818181818181818181818181818181818181",)"
-      R"("n":2,"outside_range":true,"queries":3,"range":[0.0,1.0],"range_source":"metric",)"
+      R"("n":2,"outside_range":true,"prob_floor":0.0001,"queries":3,"range":[0.0,1.0],)"
+      R"("range_source":"metric",)"
       R"("repeat_of":null,"reveals_before":1,"step":0.001,"taints":["it peeked"],)"
-      R"("tau":0.2,"upper":0.75)";
+      R"("target_range":[-1.0,2.0],"tau":0.2,"upper":0.75)";
   const std::string repeat =
       R"("answer_index":3,"contaminated":true,"delta":0.05,"estimate":0.5,)"
       R"("improved":true,"kind":"frozen","ladder_step":0.01,"leader":"m1","log_hypotheses":1.5,)"
@@ -532,8 +536,10 @@ TEST(EntriesTest, EvalFieldsArePinned) {
       R"("log_transcript":0.5,"lower":0.25,"method":"ladder","metric":"error_rate","mode":"ladder",)"
       R"("model":"m1",)"
       R"("model_digest":"8181818181818181818181818181818181818181818181818181818181818181",)"
-      R"("n":2,"outside_range":true,"queries":3,"range":[0.0,1.0],"range_source":"metric",)"
-      R"("repeat_of":9,"reveals_before":1,"step":0.001,"taints":["it peeked"],"tau":0.2,)"
+      R"("n":2,"outside_range":true,"prob_floor":0.0001,"queries":3,"range":[0.0,1.0],)"
+      R"("range_source":"metric",)"
+      R"("repeat_of":9,"reveals_before":1,"step":0.001,"taints":["it peeked"],)"
+      R"("target_range":[-1.0,2.0],"tau":0.2,)"
       R"("upper":0.75)";
   const std::string expected =
       R"({"accept_contamination":"audit","answers":[{)" + answer + "},{" + repeat +
