@@ -257,35 +257,31 @@ Status PlaceAnswers(EvalRun* run) {
   run->reveals_before = 0;
   run->log_transcript = 0;
   run->first_answer_entry = 0;
-  for (const PastAnswer& p : run->past) {
-    if (!p.reveal()) continue;
-    if (run->reveals_before == 0) run->first_answer_entry = p.entry;
+  // Everything the holdout showed before this call, with its code length.
+  auto shown = [run](int64_t entry, double nats) {
+    if (run->reveals_before == 0 || entry < run->first_answer_entry) {
+      run->first_answer_entry = entry;
+    }
     ++run->reveals_before;
-    run->log_transcript += *p.record.code_length;
+    run->log_transcript += nats;
+  };
+  for (const PastAnswer& p : run->past) {
+    if (p.reveal()) shown(p.entry, *p.record.code_length);
   }
   // A failure on the holdout (an `exposure`) showed its value-free reason.
   UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<ExposureBody>> exposures,
                           ReadEntries<ExposureBody>(*run->ledger));
   for (const Decoded<ExposureBody>& x : exposures) {
-    if (run->reveals_before == 0 || x.entry.seq < run->first_answer_entry) {
-      run->first_answer_entry = x.entry.seq;
-    }
-    ++run->reveals_before;
-    run->log_transcript += FailureCodeLength(run->st.source.columns.size());
+    shown(x.entry.seq, FailureCodeLength(run->st.source.columns.size()));
   }
-  // A refusal because attached files hold holdout rows showed one bit too.
+  // A refusal because attached files hold holdout rows showed one bit.
   UNSEEN_ASSIGN_OR_RETURN(std::vector<Decoded<RefusalBody>> refusals,
                           ReadEntries<RefusalBody>(*run->ledger));
   for (const Decoded<RefusalBody>& r : refusals) {
-    if (r.body.command != "eval" || !r.body.details.is_object() ||
-        !r.body.details.value("attachments_hold_holdout_rows", false)) {
-      continue;
+    if (r.body.command == "eval" && r.body.details.is_object() &&
+        r.body.details.value("attachments_hold_holdout_rows", false)) {
+      shown(r.entry.seq, std::log(2.0));
     }
-    if (run->reveals_before == 0 || r.entry.seq < run->first_answer_entry) {
-      run->first_answer_entry = r.entry.seq;
-    }
-    ++run->reveals_before;
-    run->log_transcript += std::log(2.0);
   }
   if (run->reveals_before > 0) {
     UNSEEN_ASSIGN_OR_RETURN(std::vector<ModelSummary> models, ListModels(*run->ledger));
