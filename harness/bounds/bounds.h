@@ -22,6 +22,10 @@ enum class BoundMethod {
   kBernstein = 2,       // empirical Bernstein (Maurer & Pontil 2009, Theorem 4)
   kMcDiarmid = 3,       // AUC by McDiarmid's inequality (harness/bounds/metric_bound.h)
 };
+// Every method, for counting the questions that can be asked (append here too).
+inline constexpr BoundMethod kBoundMethods[] = {BoundMethod::kHoeffding,
+                                                BoundMethod::kClopperPearson,
+                                                BoundMethod::kBernstein, BoundMethod::kMcDiarmid};
 
 // "hoeffding", "clopper-pearson", "bernstein" or "mcdiarmid" (exact, lower
 // case). ComputeBound takes the first three; MetricBound also the fourth.

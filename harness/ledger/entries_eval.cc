@@ -52,6 +52,17 @@ json AnswerRecordJson(const EvalAnswerRecord& a) {
   return j;
 }
 
+// A required [lo, hi] pair.
+void ReadRange(BodyReader& r, const std::string& key, double* lo, double* hi) {
+  const std::vector<double> range = r.Required<std::vector<double>>(key);
+  if (range.size() == 2) {
+    *lo = range[0];
+    *hi = range[1];
+  } else {
+    r.Fail("'" + key + "' should be [lo, hi]");
+  }
+}
+
 // What the eval command itself reads back is required; the Ladder's and
 // Thresholdout's fields default as they did for answers written before them.
 EvalAnswerRecord ReadAnswer(BodyReader& r, size_t i) {
@@ -68,21 +79,9 @@ EvalAnswerRecord ReadAnswer(BodyReader& r, size_t i) {
   a.lower = r.Required<double>(at("lower"));
   a.upper = r.Required<double>(at("upper"));
   a.step = r.Required<double>(at("step"));
-  const std::vector<double> range = r.Required<std::vector<double>>(at("range"));
-  if (range.size() == 2) {
-    a.range_lo = range[0];
-    a.range_hi = range[1];
-  } else {
-    r.Fail("'" + at("range") + "' should be [lo, hi]");
-  }
+  ReadRange(r, at("range"), &a.range_lo, &a.range_hi);
   a.range_source = r.Required<std::string>(at("range_source"));
-  const std::vector<double> target = r.Required<std::vector<double>>(at("target_range"));
-  if (target.size() == 2) {
-    a.target_lo = target[0];
-    a.target_hi = target[1];
-  } else {
-    r.Fail("'" + at("target_range") + "' should be [lo, hi]");
-  }
+  ReadRange(r, at("target_range"), &a.target_lo, &a.target_hi);
   a.prob_floor = r.Required<double>(at("prob_floor"));
   a.outside_range = r.Required<bool>(at("outside_range"));
   a.queries = r.Optional<uint64_t>(at("queries"));

@@ -55,6 +55,12 @@ Result<Metric> ParseMetric(std::string_view name) {
                                  "brier, auc, mse or mae");
 }
 
+std::vector<Metric> AllMetrics() {
+  std::vector<Metric> out;
+  for (const auto& m : kNames) out.push_back(m.metric);
+  return out;
+}
+
 const char* MetricName(Metric m) {
   for (const auto& n : kNames) {
     if (n.metric == m) return n.name;

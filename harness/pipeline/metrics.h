@@ -7,6 +7,7 @@
 
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "harness/pipeline/learner.h"
 #include "storage/status.h"
@@ -17,6 +18,8 @@ namespace unseen {
 enum class Metric { kErrorRate, kAccuracy, kBalancedAccuracy, kLogLoss, kBrier, kAuc, kMse, kMae };
 
 Result<Metric> ParseMetric(std::string_view name);
+// Every metric ParseMetric knows, in a fixed order.
+std::vector<Metric> AllMetrics();
 const char* MetricName(Metric m);
 bool LowerIsBetter(Metric m);
 // error_rate for classification, mse for regression.

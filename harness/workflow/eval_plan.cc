@@ -231,11 +231,9 @@ uint64_t DefaultQuestionKinds(const LedgerState& st) {
   const LearnTask task = classification ? LearnTask::kClassification : LearnTask::kRegression;
   const int classes = static_cast<int>(st.source.target.classes.size());
   uint64_t kinds = 0;
-  for (Metric m : {Metric::kErrorRate, Metric::kAccuracy, Metric::kBalancedAccuracy,
-                   Metric::kLogLoss, Metric::kBrier, Metric::kAuc, Metric::kMse, Metric::kMae}) {
+  for (Metric m : AllMetrics()) {
     if (!CheckMetric(m, task, classes).ok()) continue;
-    for (BoundMethod b : {BoundMethod::kHoeffding, BoundMethod::kClopperPearson,
-                          BoundMethod::kBernstein, BoundMethod::kMcDiarmid}) {
+    for (BoundMethod b : kBoundMethods) {
       kinds += CheckBoundMethod(m, b).ok() ? 1 : 0;
     }
   }

@@ -97,6 +97,24 @@ TEST(MetricBoundTest, AucUsesMcDiarmidsInequality) {
   EXPECT_FALSE(MetricBound(s, BoundMethod::kHoeffding, 0.05, 0).ok());
 }
 
+TEST(MetricBoundTest, EveryMetricAndMethodIsListedOnce) {
+  // The accounting counts the default questions from these lists
+  // (docs/bounds.md, "One accounting"): each name must round-trip.
+  const std::vector<Metric> metrics = AllMetrics();
+  ASSERT_EQ(metrics.size(), 8u);
+  for (Metric m : metrics) {
+    auto parsed = ParseMetric(MetricName(m));
+    ASSERT_TRUE(parsed.ok()) << MetricName(m);
+    EXPECT_EQ(*parsed, m);
+  }
+  ASSERT_EQ(std::size(kBoundMethods), 4u);
+  for (BoundMethod b : kBoundMethods) {
+    auto parsed = ParseBoundMethod(BoundMethodName(b));
+    ASSERT_TRUE(parsed.ok()) << BoundMethodName(b);
+    EXPECT_EQ(*parsed, b);
+  }
+}
+
 TEST(MetricBoundTest, MethodsThatDoNotFitTheMetricAreRefused) {
   EXPECT_FALSE(CheckBoundMethod(Metric::kMse, BoundMethod::kClopperPearson).ok());
   EXPECT_FALSE(CheckBoundMethod(Metric::kErrorRate, BoundMethod::kMcDiarmid).ok());
